@@ -1,0 +1,417 @@
+"""The records that flow through the auditor: small frozen dataclasses, SI inside.
+
+Data flows one way (DESIGN.md): the schedule reader makes ``Panel``, ``Equipment``,
+``Project`` and ``RowProblem`` records; physics turns a panel into ``Mode`` records; the
+excitation module turns equipment into ``Excitation`` records; the rules turn pairs into
+``Finding`` records; ``AuditResult`` gathers everything for the writers.
+
+Every quantity is in SI: metres, kilograms per square metre, newtons per metre, pascal-seconds
+per metre, hertz. Units exist only at the edges (``auditor.units``).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any, Literal
+
+Severity = Literal["error", "warning"]
+ShapeKind = Literal["rectangle", "circle", "polygon"]
+Material = Literal["film", "fabric", "mesh", "plate"]
+RoomSide = Literal["air", "none"]
+PlenumSide = Literal["air", "sealed", "none"]
+EquipmentKind = Literal[
+    "fan", "pump", "motor", "compressor", "transformer", "belt", "flow", "tone"
+]
+FindingSeverity = Literal["conflict", "caution"]
+
+SHAPES: tuple[str, ...] = ("rectangle", "circle", "polygon")
+MATERIALS: tuple[str, ...] = ("film", "fabric", "mesh", "plate")
+ROOM_SIDES: tuple[str, ...] = ("air", "none")
+PLENUM_SIDES: tuple[str, ...] = ("air", "sealed", "none")
+EQUIPMENT_KINDS: tuple[str, ...] = (
+    "fan", "pump", "motor", "compressor", "transformer", "belt", "flow", "tone",
+)
+
+
+@dataclass(frozen=True)
+class SourceRef:
+    """Where a record came from, as the spreadsheet numbers it.
+
+    ``row`` is the 1-based row number a spreadsheet program shows (for a CSV file, the
+    1-based line number of the record).
+    """
+
+    file: str
+    sheet: str
+    row: int
+
+
+@dataclass(frozen=True)
+class RowProblem:
+    """Something the reader (or a later stage) could not use, or doubts.
+
+    ``severity`` "error" rejects the row; "warning" keeps it. ``column`` is the header as the
+    user typed it (empty when the problem concerns a whole row or sheet); ``text`` is the
+    cell's text as typed.
+    """
+
+    file: str
+    sheet: str
+    row: int | None
+    column: str
+    message: str
+    severity: Severity = "error"
+    text: str = ""
+    record: str = ""  # panel id or equipment tag, when known
+
+    def as_dict(self) -> dict[str, Any]:
+        return {
+            "file": self.file,
+            "sheet": self.sheet,
+            "row": self.row,
+            "column": self.column,
+            "message": self.message,
+            "severity": self.severity,
+            "text": self.text,
+            "record": self.record,
+        }
+
+
+@dataclass(frozen=True)
+class CircleCutout:
+    """A circular cut-out (luminaire, sprinkler) with its edge fixed.  [m]"""
+
+    x: float
+    y: float
+    diameter: float
+
+
+@dataclass(frozen=True)
+class PolygonCutout:
+    """A polygonal cut-out (diffuser) with its edge fixed; vertices in metres."""
+
+    vertices: tuple[tuple[float, float], ...]
+
+
+Cutout = CircleCutout | PolygonCutout
+
+
+@dataclass(frozen=True)
+class Panel:
+    """One tensioned panel, SI throughout.
+
+    Parameters
+    ----------
+    panel : str
+        Unique id from the schedule.
+    shape : {"rectangle", "circle", "polygon"}
+    width, length : float or None  [m]
+        Rectangle sides, ``width`` along x, ``length`` along y.
+    diameter : float or None  [m]
+    outline : tuple of (x, y) or None  [m]
+        Polygon vertices in order.
+    cutouts : tuple of Cutout  [m]
+    material : {"film", "fabric", "mesh", "plate"}
+    areal_density : float  [kg/m²]
+    tension_x, tension_y : float  [N/m]
+        Membrane tension per unit edge length; ``tension_x`` acts along the width (x).
+    bending_stiffness : float  [N·m]
+        Flexural rigidity D; 0 for a pure membrane.
+    loss_factor : float or None  [-]
+        Structural loss factor; None means "use the material default".
+    airflow_resistance : float or None  [Pa·s/m]
+        Specific airflow resistance of a porous fabric or mesh; None means impervious for
+        film and fabric, freely open for mesh.
+    room_side : {"air", "none"}
+    plenum_side : {"air", "sealed", "none"}
+    cavity_depth : float or None  [m]
+    max_tension : float or None  [N/m]
+    tap_test : str or None
+        Path of a tap-test recording, relative to the schedule file.
+    entered : tuple of (column, text)
+        The cells as the user typed them (for reports in the schedule's own units).
+    """
+
+    panel: str
+    source: SourceRef
+    shape: ShapeKind = "rectangle"
+    zone: str = ""
+    width: float | None = None
+    length: float | None = None
+    diameter: float | None = None
+    outline: tuple[tuple[float, float], ...] | None = None
+    cutouts: tuple[Cutout, ...] = ()
+    material: Material = "film"
+    areal_density: float = 0.0
+    tension_x: float = 0.0
+    tension_y: float = 0.0
+    bending_stiffness: float = 0.0
+    loss_factor: float | None = None
+    airflow_resistance: float | None = None
+    room_side: RoomSide = "air"
+    plenum_side: PlenumSide = "air"
+    cavity_depth: float | None = None
+    max_tension: float | None = None
+    tap_test: str | None = None
+    entered: tuple[tuple[str, str], ...] = ()
+
+    @property
+    def isotropic(self) -> bool:
+        return self.tension_x == self.tension_y
+
+
+@dataclass(frozen=True)
+class Equipment:
+    """One item of building-services equipment, SI throughout.
+
+    Speeds are in revolutions per minute as the trade states them (``rpm``), frequencies in
+    hertz, lengths in metres, velocity in m/s. ``zones`` is None when the item reaches every
+    zone. ``harmonics`` overrides the rule set's count for this item when given.
+    """
+
+    equipment: str
+    source: SourceRef
+    kind: EquipmentKind
+    zones: tuple[str, ...] | None = None
+    rpm: float | None = None
+    rpm_min: float | None = None
+    rpm_max: float | None = None
+    blades: int | None = None
+    vanes: int | None = None
+    cylinders: int | None = None
+    poles: int | None = None
+    slip: float | None = None
+    line_frequency: float | None = None
+    frequency: float | None = None
+    frequency_min: float | None = None
+    frequency_max: float | None = None
+    velocity: float | None = None
+    wire_diameter: float | None = None
+    pulley_diameter: float | None = None
+    belt_length: float | None = None
+    harmonics: int | None = None
+    entered: tuple[tuple[str, str], ...] = ()
+
+    def reaches(self, zone: str) -> bool:
+        """True when this item reaches a panel in ``zone`` (case-insensitive)."""
+        if self.zones is None:
+            return True
+        return zone.strip().casefold() in {z.casefold() for z in self.zones}
+
+
+@dataclass(frozen=True)
+class Project:
+    """Project sheet: key/value facts, SI.  ``air_density`` [kg/m³], ``speed_of_sound`` [m/s]."""
+
+    name: str = ""
+    reference: str = ""
+    client: str = ""
+    prepared_by: str = ""
+    prepared_for: str = ""
+    line_frequency: float | None = None
+    air_density: float = 1.204
+    speed_of_sound: float = 343.0
+    extra: tuple[tuple[str, str], ...] = ()
+
+
+@dataclass(frozen=True)
+class InputFile:
+    """An input file as read: its path and SHA-256 (for the report's cover)."""
+
+    path: str
+    sha256: str
+
+
+@dataclass(frozen=True)
+class Schedule:
+    """Everything read from one or more schedule files.
+
+    Every data row of every recognised table ends up as exactly one of: a ``Panel``, an
+    ``Equipment``, a project entry, or a ``RowProblem`` of severity "error".
+    """
+
+    panels: tuple[Panel, ...] = ()
+    equipment: tuple[Equipment, ...] = ()
+    project: Project = field(default_factory=Project)
+    problems: tuple[RowProblem, ...] = ()
+    files: tuple[InputFile, ...] = ()
+
+    @property
+    def rejected(self) -> tuple[RowProblem, ...]:
+        return tuple(p for p in self.problems if p.severity == "error")
+
+
+@dataclass(frozen=True)
+class Mode:
+    """One natural mode of a panel, as reported.
+
+    Parameters
+    ----------
+    label : str
+        "(m,n)" on a rectangle (m half-waves along the width, n along the length); "(m,n)" on a
+        circle (m nodal diameters, n−1 interior nodal circles); "#k" on other outlines.
+    frequency_hz : float  [Hz]
+        Natural frequency (with air loading where the loading model applies).
+    multiplicity : int
+        2 for the cos/sin pair of a circular mode with nodal diameters, else 1.
+    participation : float  [-]
+        Uniform-pressure participation factor (∫φ dA)² / (A ∫φ² dA).
+    nodal_lines : tuple of (family, count)
+        e.g. (("along y", m−1), ("along x", n−1)) or (("diameters", m), ("circles", n−1)).
+    loss_factor : float or None  [-]
+        Total loss factor (structural + radiation) when known.
+    in_vacuo_hz : float or None  [Hz]
+        The same mode's frequency with no air, for comparison.
+    index : int
+        Position of this mode in its panel's modal basis (for shape drawings).
+    """
+
+    label: str
+    frequency_hz: float
+    multiplicity: int = 1
+    participation: float = 0.0
+    nodal_lines: tuple[tuple[str, int], ...] = ()
+    loss_factor: float | None = None
+    in_vacuo_hz: float | None = None
+    index: int = 0
+
+    def as_dict(self) -> dict[str, Any]:
+        return {
+            "label": self.label,
+            "frequency_hz": self.frequency_hz,
+            "multiplicity": self.multiplicity,
+            "participation": self.participation,
+            "nodal_lines": dict(self.nodal_lines),
+            "loss_factor": self.loss_factor,
+            "in_vacuo_hz": self.in_vacuo_hz,
+        }
+
+
+@dataclass(frozen=True)
+class Excitation:
+    """One forcing line or band from one item of equipment.
+
+    Parameters
+    ----------
+    equipment : str
+        Equipment tag.
+    kind : str
+        Equipment kind ("fan", ...).
+    source : str
+        What makes the tone in the trade's words: "shaft", "blade-pass", "vane-pass",
+        "electromagnetic", "hum", "cylinder", "belt-pass", "vortex shedding", "tone".
+    order : int
+        Harmonic number (1 for the fundamental of that source).
+    description : str
+        In words, e.g. "fan blade-pass ×2".
+    frequency_hz : float  [Hz]
+        The line; for a band, its geometric centre.
+    band_hz : (float, float) or None  [Hz]
+        Lower and upper edge of a band (variable speed, a typed range); None for a line.
+    airborne : bool
+        True when the excitation reaches a panel only as sound in air (then a mode with a
+        small uniform-pressure participation cannot be driven hard); False for
+        structure-borne paths (shaft and electromagnetic forces through fixings).
+    """
+
+    equipment: str
+    kind: str
+    source: str
+    order: int
+    description: str
+    frequency_hz: float
+    band_hz: tuple[float, float] | None = None
+    airborne: bool = True
+
+    @property
+    def low_hz(self) -> float:
+        return self.band_hz[0] if self.band_hz else self.frequency_hz
+
+    @property
+    def high_hz(self) -> float:
+        return self.band_hz[1] if self.band_hz else self.frequency_hz
+
+
+@dataclass(frozen=True)
+class Remedy:
+    """What would clear a conflict.
+
+    ``tension`` [N/m] is the new tension along x (both tensions scaled together for an
+    orthotropic panel), None when no tension within range clears it; ``bays`` is the number
+    of equal bays (intermediate supports across the longer side) that clears it, None when
+    not needed or not possible; ``text`` says it in words.
+    """
+
+    tension: float | None
+    bays: int | None
+    text: str
+    tension_y: float | None = None
+
+
+@dataclass(frozen=True)
+class Finding:
+    """A (mode, excitation) pair that matters to the rule set.
+
+    ``separation`` is signed: (mode − excitation) / excitation for a line; for a band, the
+    distance to its nearest edge over that edge, 0 inside the band.
+    """
+
+    panel: str
+    mode: Mode
+    excitation: Excitation
+    separation: float
+    severity: FindingSeverity
+    margin: float
+    remedy: Remedy | None = None
+
+
+@dataclass(frozen=True)
+class PanelResult:
+    """One panel's modes and findings, and which model gave them."""
+
+    panel: Panel
+    modes: tuple[Mode, ...]
+    findings: tuple[Finding, ...]
+    loading: str  # the loading model that applied, in words
+    notes: tuple[str, ...] = ()
+
+    @property
+    def status(self) -> str:
+        sev = {f.severity for f in self.findings}
+        return "conflict" if "conflict" in sev else "caution" if "caution" in sev else "clear"
+
+
+@dataclass(frozen=True)
+class AuditResult:
+    """Everything the writers need; they only read it.
+
+    ``ruleset`` is an ``auditor.rules.RuleSet``; ``excitations`` maps each equipment tag to
+    its excitations; ``problems`` holds the schedule's problems plus any raised while
+    auditing (a panel whose geometry the physics could not mesh, say).
+    """
+
+    schedule: Schedule
+    panels: tuple[PanelResult, ...]
+    excitations: tuple[tuple[str, tuple[Excitation, ...]], ...]
+    ruleset: Any
+    problems: tuple[RowProblem, ...]
+    version: str
+    created: str  # ISO 8601 date-time of the audit
+    calibrated: bool = False
+
+    @property
+    def findings(self) -> tuple[Finding, ...]:
+        return tuple(f for p in self.panels for f in p.findings)
+
+    def summary(self) -> dict[str, int]:
+        fs = self.findings
+        return {
+            "panels": len(self.schedule.panels),
+            "equipment": len(self.schedule.equipment),
+            "rejected_rows": sum(1 for p in self.problems if p.severity == "error"),
+            "warnings": sum(1 for p in self.problems if p.severity == "warning"),
+            "conflicts": sum(1 for f in fs if f.severity == "conflict"),
+            "cautions": sum(1 for f in fs if f.severity == "caution"),
+            "panels_with_conflicts": sum(1 for p in self.panels if p.status == "conflict"),
+            "panels_clear": sum(1 for p in self.panels if p.status == "clear"),
+        }

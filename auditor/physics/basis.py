@@ -1,0 +1,137 @@
+"""The in-vacuo modal basis: the one interface between geometry and everything after it.
+
+geometry → ``ModalBasis`` (membrane.py analytic, fem.py numerical) → a loading step
+(fluid.py: air, cavity, porosity) → reported modes (modes.py).
+
+Conventions (all bases keep them, so the loading step needs no special cases):
+
+- Coordinates in metres. Rectangle: origin at a corner, x along the width in [0, width],
+  y along the length in [0, length]. Circle: origin at the centre. Polygon: the schedule's own
+  coordinates.
+- Shapes are real and normalised to unit mean square: ∫ φ² dA = A (panel area). Then the
+  modal mass is ρs·A and the modal stiffness ρs·A·ω² for every mode, and the uniform-pressure
+  participation factor is simply ``mean**2`` where ``mean = ∫ φ dA / A``.
+- A degenerate pair of a symmetric shape (the cos and sin modes of a circular membrane with
+  nodal diameters) is stored once, with ``multiplicity`` 2. Symmetry guarantees that air and
+  cavity loading never couple the two members or mix orders, so the loading step may work on
+  representatives.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Callable
+
+import numpy as np
+
+
+@dataclass(frozen=True)
+class RectangleRegion:
+    """Rectangle ``width`` × ``length``  [m], origin at a corner."""
+
+    width: float
+    length: float
+
+    @property
+    def area(self) -> float:
+        return self.width * self.length
+
+    def contains(self, points: np.ndarray) -> np.ndarray:
+        x, y = points[:, 0], points[:, 1]
+        return (x >= 0) & (x <= self.width) & (y >= 0) & (y <= self.length)
+
+    def bounds(self) -> tuple[float, float, float, float]:
+        return (0.0, 0.0, self.width, self.length)
+
+
+@dataclass(frozen=True)
+class CircleRegion:
+    """Disc of ``radius`` [m], centred on the origin."""
+
+    radius: float
+
+    @property
+    def area(self) -> float:
+        return float(np.pi * self.radius**2)
+
+    def contains(self, points: np.ndarray) -> np.ndarray:
+        return np.hypot(points[:, 0], points[:, 1]) <= self.radius
+
+    def bounds(self) -> tuple[float, float, float, float]:
+        r = self.radius
+        return (-r, -r, r, r)
+
+
+@dataclass(frozen=True, eq=False)
+class PolygonRegion:
+    """A polygon with holes, and the triangulation the finite elements used.
+
+    ``outline`` is the outer boundary (counter-clockwise), ``holes`` the cut-out boundaries
+    (each a closed polygon; circles arrive here already as polygons). ``nodes`` (N, 2) and
+    ``triangles`` (M, 3) are the mesh (straight-sided, corner nodes only), usable as a
+    quadrature by the loading step.
+    """
+
+    outline: np.ndarray
+    holes: tuple[np.ndarray, ...] = ()
+    nodes: np.ndarray | None = None
+    triangles: np.ndarray | None = None
+    area: float = 0.0
+
+    def contains(self, points: np.ndarray) -> np.ndarray:
+        inside = _inside_polygon(points, np.asarray(self.outline, float))
+        for hole in self.holes:
+            inside &= ~_inside_polygon(points, np.asarray(hole, float))
+        return inside
+
+    def bounds(self) -> tuple[float, float, float, float]:
+        o = np.asarray(self.outline)
+        return (float(o[:, 0].min()), float(o[:, 1].min()), float(o[:, 0].max()), float(o[:, 1].max()))
+
+
+Region = RectangleRegion | CircleRegion | PolygonRegion
+
+
+@dataclass(frozen=True, eq=False)
+class ModalBasis:
+    """In-vacuo modes of one panel, ascending in frequency.
+
+    Parameters
+    ----------
+    region : Region
+    frequencies_hz : ndarray (n,)  [Hz]
+    labels : tuple of str (n,)
+        "(m,n)" for rectangle and circle (see ``auditor.model.Mode``), "#k" otherwise.
+    multiplicity : ndarray of int (n,)
+    mean : ndarray (n,)  [-]
+        ∫ φ dA / A with the unit-mean-square normalisation; participation = mean².
+    nodal_lines : tuple of tuple of (family, count) (n,)
+    evaluate : callable (points (N, 2) [m]) -> ndarray (N, n)
+        Shape values at points, unit mean square; 0 outside the panel.
+    """
+
+    region: Region
+    frequencies_hz: np.ndarray
+    labels: tuple[str, ...]
+    multiplicity: np.ndarray
+    mean: np.ndarray
+    nodal_lines: tuple[tuple[tuple[str, int], ...], ...]
+    evaluate: Callable[[np.ndarray], np.ndarray] = field(repr=False)
+
+    @property
+    def participation(self) -> np.ndarray:
+        return self.mean**2
+
+    def __len__(self) -> int:
+        return len(self.frequencies_hz)
+
+
+def _inside_polygon(points: np.ndarray, vertices: np.ndarray) -> np.ndarray:
+    """Even-odd rule, vectorised over points; ``vertices`` (V, 2) without repeating the first."""
+    x, y = points[:, 0][:, None], points[:, 1][:, None]
+    x0, y0 = vertices[:, 0][None, :], vertices[:, 1][None, :]
+    x1, y1 = np.roll(vertices[:, 0], -1)[None, :], np.roll(vertices[:, 1], -1)[None, :]
+    crosses = (y0 > y) != (y1 > y)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        x_at = x0 + (y - y0) * (x1 - x0) / (y1 - y0)
+    return (np.count_nonzero(crosses & (x < x_at), axis=1) % 2) == 1
