@@ -365,15 +365,36 @@ class Finding:
     remedy: Remedy | None = None
 
 
+@dataclass(frozen=True, eq=False)
+class ShapeGrid:
+    """A mode shape sampled for drawing.
+
+    ``x`` (nx,) and ``y`` (ny,) [m] in the panel's own coordinates (see
+    ``auditor.physics.basis``); ``values`` (ny, nx) scaled so max |φ| = 1, NaN outside the
+    panel (cut-outs included).
+    """
+
+    label: str
+    x: Any
+    y: Any
+    values: Any
+
+
 @dataclass(frozen=True)
 class PanelResult:
-    """One panel's modes and findings, and which model gave them."""
+    """One panel's modes and findings, and which model gave them.
+
+    ``shapes`` holds drawings of the modes named in findings (and the fundamental);
+    ``measured_peaks_hz`` the tap-test peaks when a recording was used.
+    """
 
     panel: Panel
     modes: tuple[Mode, ...]
     findings: tuple[Finding, ...]
     loading: str  # the loading model that applied, in words
     notes: tuple[str, ...] = ()
+    shapes: tuple[ShapeGrid, ...] = ()
+    measured_peaks_hz: tuple[float, ...] = ()
 
     @property
     def status(self) -> str:
