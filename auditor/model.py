@@ -257,7 +257,8 @@ class Mode:
     participation : float  [-]
         Uniform-pressure participation factor (∫φ dA)² / (A ∫φ² dA).
     nodal_lines : tuple of (family, count)
-        e.g. (("along y", m−1), ("along x", n−1)) or (("diameters", m), ("circles", n−1)).
+        e.g. (("parallel to length", m−1), ("parallel to width", n−1)) on a rectangle,
+        (("diameters", m), ("circles", n−1)) on a circle, (("nodal domains", k),) otherwise.
     loss_factor : float or None  [-]
         Total loss factor (structural + radiation) when known.
     in_vacuo_hz : float or None  [Hz]

@@ -1,0 +1,70 @@
+"""Time and accuracy of the polygon membrane solver at default settings.
+
+Run with: python -m pytest tests/bench/test_bench_fem.py -m bench -s
+Each timing is the best of three cold solves (cache cleared), measured after import.
+"""
+
+import math
+import time
+
+import numpy as np
+import pytest
+
+from auditor.model import CircleCutout, PolygonCutout
+from auditor.physics import fem
+
+pytestmark = pytest.mark.bench
+
+L_SHAPE = ((0.0, 0.0), (2.0, 0.0), (2.0, 1.0), (1.0, 1.0), (1.0, 2.0), (0.0, 2.0))
+TRIANGLE = ((0.0, 0.0), (1.0, 0.0), (0.5, 0.5 * math.sqrt(3.0)))
+TRAPEZOID = ((0.0, 0.0), (3.0, 0.0), (2.5, 1.5), (0.5, 1.5))
+TRAPEZOID_CUTOUTS = (
+    CircleCutout(0.8, 0.7, 0.3),
+    PolygonCutout(((1.8, 0.5), (2.2, 0.5), (2.2, 0.9), (1.8, 0.9))),
+)
+
+
+def cold_solve(outline, cutouts, accuracy="default", n_modes=None):
+    best, basis = math.inf, None
+    for _ in range(3):
+        fem.clear_eigen_solution_cache()
+        start = time.perf_counter()
+        basis = fem.polygon_membrane_basis(outline, cutouts, 1.0, 1.0, 1.0, n_modes=n_modes, accuracy=accuracy)
+        best = min(best, time.perf_counter() - start)
+    return basis, best
+
+
+def report(name, basis, seconds, reference):
+    lam = (2 * np.pi * basis.frequencies_hz[: len(reference)]) ** 2
+    error = lam / np.asarray(reference) - 1
+    print(
+        f"\n{name}: {seconds:.3f} s, {len(basis.region.triangles)} triangles, "
+        f"{len(basis)} modes; relative error of λ: "
+        + ", ".join(f"{e:+.1e}" for e in error)
+    )
+    return error
+
+
+def test_bench_l_shape():
+    basis, seconds = cold_solve(L_SHAPE, ())
+    # Fox, Henrici & Moler (1967); Betcke & Trefethen, SIAM Review 47 (2005)
+    error = report("L-shape", basis, seconds, [9.6397238440, 15.1972519265, 2 * math.pi**2])
+    assert abs(error[0]) < 5e-4
+    assert seconds < 2.0
+
+
+def test_bench_equilateral_triangle():
+    basis, seconds = cold_solve(TRIANGLE, ())
+    # Lamé: λ = (16π²/9)(m² + mn + n²) for side 1 (Pinsky, SIAM J. Math. Anal. 11, 1980)
+    error = report("equilateral triangle", basis, seconds, 16 * math.pi**2 / 9 * np.array([3, 7, 7, 12, 13, 13]))
+    assert np.all(np.abs(error) < 5e-4)
+
+
+def test_bench_trapezoid_with_two_cutouts():
+    # no published value: the reference is the "fine" solve of the same shape
+    fine, fine_seconds = cold_solve(TRAPEZOID, TRAPEZOID_CUTOUTS, accuracy="fine")
+    reference = (2 * np.pi * fine.frequencies_hz[:6]) ** 2
+    print(f"\ntrapezoid reference ('fine'): {fine_seconds:.3f} s, {len(fine.region.triangles)} triangles")
+    basis, seconds = cold_solve(TRAPEZOID, TRAPEZOID_CUTOUTS)
+    error = report("trapezoid with two cut-outs (against 'fine')", basis, seconds, reference)
+    assert np.all(np.abs(error) < 5e-4)

@@ -1,0 +1,232 @@
+"""Finite-element membrane modes against published eigenvalues and exact solutions.
+
+With tension T = 1 N/m and areal density ρs = 1 kg/m², λ = ω²ρs/T = (2πf)² is the Dirichlet
+eigenvalue of −∇² on the outline.
+"""
+
+import math
+
+import numpy as np
+import pytest
+from scipy.special import jn_zeros
+
+from auditor.model import CircleCutout, PolygonCutout
+from auditor.physics import fem
+from auditor.physics.basis import ModalBasis, PolygonRegion
+from auditor.physics.geometry import signed_area
+
+SQUARE = ((0.0, 0.0), (1.0, 0.0), (1.0, 1.0), (0.0, 1.0))
+L_SHAPE = ((0.0, 0.0), (2.0, 0.0), (2.0, 1.0), (1.0, 1.0), (1.0, 2.0), (0.0, 2.0))
+
+
+def eigenvalues(basis: ModalBasis) -> np.ndarray:
+    return (2.0 * np.pi * basis.frequencies_hz) ** 2
+
+
+@pytest.fixture(scope="module")
+def square() -> ModalBasis:
+    return fem.polygon_membrane_basis(SQUARE, (), 1.0, 1.0, 1.0, n_modes=6)
+
+
+def test_l_shaped_membrane():
+    basis = fem.polygon_membrane_basis(L_SHAPE, (), 1.0, 1.0, 1.0, n_modes=3)
+    lam = eigenvalues(basis)
+    # Fox, Henrici & Moler, SIAM J. Numer. Anal. 4 (1967); Betcke & Trefethen, SIAM Review
+    # 47 (2005): λ1 = 9.6397238440, λ2 = 15.1972519265, λ3 = 2π² (= 19.7392088022).
+    reference = np.array([9.6397238440, 15.1972519265, 2.0 * math.pi**2])
+    assert lam == pytest.approx(reference, rel=5e-4)
+    # conforming elements bound each eigenvalue from above (Rayleigh-Ritz; Strang & Fix,
+    # An Analysis of the Finite Element Method, 1973, ch. 6)
+    assert np.all(lam >= reference * (1 - 1e-12))
+    assert basis.labels == ("#1", "#2", "#3")
+    assert list(basis.multiplicity) == [1, 1, 1]
+    # the third mode is the unit square's fundamental in each square, alternating in sign:
+    # three nodal domains (Betcke & Trefethen 2005, fig. of the L-shape's modes)
+    assert basis.nodal_lines[2] == (("nodal domains", 3),)
+
+
+def test_equilateral_triangle():
+    side = 0.8
+    basis = fem.polygon_membrane_basis(
+        ((0.0, 0.0), (side, 0.0), (0.5 * side, 0.5 * math.sqrt(3) * side)), (), 1.0, 1.0, 1.0, n_modes=8
+    )
+    lam = eigenvalues(basis)
+    # Lamé: λ = (16π²/(9a²))(m² + mn + n²), m, n ≥ 1 (M. Pinsky, SIAM J. Math. Anal. 11,
+    # 1980): the lowest distinct values have m² + mn + n² = 3, 7 (twice), 12.
+    factor = 16 * math.pi**2 / (9 * side**2)
+    assert lam[0] == pytest.approx(3 * factor, rel=5e-4)
+    assert lam[1:3] == pytest.approx([7 * factor] * 2, rel=5e-4)
+    assert lam[3] == pytest.approx(12 * factor, rel=5e-4)
+
+
+def test_unit_square(square):
+    # f_mn = ½√(T/ρs)·√((m/a)² + (n/b)²) (Morse & Ingard, Theoretical Acoustics, §5.2):
+    # λ/π² = m² + n² = 2, 5, 5, 8, 10, 10
+    assert eigenvalues(square) / math.pi**2 == pytest.approx([2, 5, 5, 8, 10, 10], rel=5e-4)
+
+
+def test_circle_as_many_sided_polygon():
+    radius, sides = 0.5, 96
+    angle = 2 * np.pi * np.arange(sides) / sides
+    outline = tuple(zip(radius * np.cos(angle), radius * np.sin(angle)))
+    basis = fem.polygon_membrane_basis(outline, (), 1.0, 1.0, 1.0, n_modes=6)
+    root = np.sqrt(eigenvalues(basis)) * radius
+    # f = j_mn √(T/ρs)/(2πa), j_mn the n-th zero of J_m (scipy.special.jn_zeros); m ≥ 1
+    # modes come in pairs. The inscribed 96-gon has (2π/96)²/6 ≈ 7e-4 less area, so its
+    # eigenvalues lie about that much above the disc's: allow 0.15 % on λ.
+    j01, j02 = jn_zeros(0, 2)
+    j11, j21 = jn_zeros(1, 1)[0], jn_zeros(2, 1)[0]
+    expected = np.array([j01, j11, j11, j21, j21, j02])
+    assert root**2 == pytest.approx(expected**2, rel=1.5e-3)
+    # Domain monotonicity (the polygon lies inside the disc) and the Faber-Krahn inequality
+    # (among shapes of equal area the disc has the lowest λ1: Faber 1923, Krahn 1925) bound
+    # the polygon's fundamental from below; the FEM value, an upper bound, must respect both.
+    polygon_area = abs(signed_area(outline))
+    assert root[0] ** 2 >= j01**2
+    assert eigenvalues(basis)[0] >= math.pi * j01**2 / polygon_area
+
+
+def test_orthotropic_rectangle():
+    width, length, tension_x, tension_y, density = 1.5, 1.0, 100.0, 400.0, 0.2
+    outline = ((0, 0), (width, 0), (width, length), (0, length))
+    basis = fem.polygon_membrane_basis(outline, (), tension_x, tension_y, density, n_modes=6)
+    # f = ½√((Tx/ρs)(m/Lx)² + (Ty/ρs)(n/Ly)²) (orthotropic membrane; e.g. Leissa, Vibration
+    # of Plates, NASA SP-160, 1969, via the coordinate stretch of the isotropic case)
+    exact = sorted(
+        0.5 * math.sqrt(tension_x / density * (m / width) ** 2 + tension_y / density * (n / length) ** 2)
+        for m in range(1, 8)
+        for n in range(1, 8)
+    )[:6]
+    assert basis.frequencies_hz == pytest.approx(exact, rel=5e-4)
+
+
+def test_circular_cutout_raises_the_fundamental(square):
+    with_hole = fem.polygon_membrane_basis(SQUARE, (CircleCutout(0.5, 0.5, 0.3),), 1.0, 1.0, 1.0, n_modes=2)
+    # Domain monotonicity of Dirichlet eigenvalues (Courant & Hilbert, Methods of
+    # Mathematical Physics I, 1953, ch. VI §2): removing a hole raises λ1.
+    assert eigenvalues(with_hole)[0] > 2 * math.pi**2 * 1.1
+    assert eigenvalues(with_hole)[0] > eigenvalues(square)[0]
+    # the region meshed is the square less the 24-or-more-sided inscribed polygon
+    region = with_hole.region
+    assert isinstance(region, PolygonRegion) and len(region.holes) == 1
+    assert region.area == pytest.approx(1.0 - abs(signed_area(region.holes[0])), rel=1e-12)
+    assert region.area == pytest.approx(1.0 - math.pi * 0.15**2, rel=2e-3)
+    # mode shapes vanish in the cut-out and outside the panel
+    assert np.allclose(with_hole.evaluate(np.array([[0.5, 0.5], [0.45, 0.55], [1.5, 0.5]])), 0.0)
+
+
+def test_participation_and_normalisation(square):
+    # ∫φ dA/A for sin(πx)sin(πy) at unit mean square is 8/π² (DESIGN.md's rectangle factor
+    # 64/(π⁴m²n²) = mean²; Morse & Ingard, Theoretical Acoustics, §5.2)
+    assert abs(square.mean[0]) == pytest.approx(8 / math.pi**2, rel=1e-4)
+    assert square.participation[0] == pytest.approx(64 / math.pi**4, rel=2e-4)
+    # the (2,1)/(1,2) pair has zero mean: odd about a centre line (exact symmetry)
+    assert np.all(np.abs(square.mean[1:3]) < 1e-3)
+    # ∫φ² dA = A, checked by midpoint quadrature on a fine grid (independent of the mesh)
+    n = 200
+    grid = (np.stack(np.meshgrid(np.arange(n), np.arange(n)), -1).reshape(-1, 2) + 0.5) / n
+    values = square.evaluate(grid)
+    assert np.mean(values**2, axis=0) == pytest.approx(np.ones(6), rel=1e-3)
+    # and the shape itself: 2 sin(πx) sin(πy) (unit mean square on the unit square)
+    exact = 2 * np.sin(np.pi * grid[:, 0]) * np.sin(np.pi * grid[:, 1])
+    assert np.max(np.abs(np.abs(values[:, 0]) - exact)) < 2e-3
+
+
+def test_nodal_domains(square):
+    # the (2,1)/(1,2) eigenspace: a cos πx + b cos πy = 0 is one nodal curve, 2 domains for
+    # any combination; (2,2) has 4 (Courant & Hilbert 1953, ch. VI §6, the square membrane)
+    domains = [dict(lines)["nodal domains"] for lines in square.nodal_lines]
+    assert domains[:4] == [1, 2, 2, 4]
+
+
+def test_frequency_limit_selects_modes():
+    # with T/ρs = 4 m²/s², f_mn = √(m² + n²) on the unit square: 1.414, 2.236 (×2), 2.828,
+    # 3.162 (×2) Hz; a 3.0 Hz limit keeps four modes
+    basis = fem.polygon_membrane_basis(SQUARE, (), 4.0, 4.0, 1.0, fmax=3.0)
+    assert len(basis) == 4
+    assert basis.frequencies_hz == pytest.approx(np.sqrt([2, 5, 5, 8]), rel=5e-4)
+
+
+def test_cache_scales_without_a_new_solve():
+    outline = ((0.0, 0.0), (1.2, 0.0), (1.0, 0.7), (0.2, 0.9))
+    cuts = (PolygonCutout(((0.4, 0.3), (0.6, 0.3), (0.6, 0.5), (0.4, 0.5))),)
+    first = fem.polygon_membrane_basis(outline, cuts, 200.0, 300.0, 0.25, n_modes=8)
+    solves = fem.eigen_solution_cache_info().misses
+    size, offset = 2.5, (4.0, -1.0)
+    moved = tuple((size * x + offset[0], size * y + offset[1]) for x, y in outline)
+    moved_cuts = (PolygonCutout(tuple((size * x + offset[0], size * y + offset[1]) for x, y in cuts[0].vertices)),)
+    tension_scale, density = 3.0, 0.4
+    second = fem.polygon_membrane_basis(
+        moved, moved_cuts, 200.0 * tension_scale, 300.0 * tension_scale, density, n_modes=8
+    )
+    assert fem.eigen_solution_cache_info().misses == solves  # no new solve
+    # f ∝ √(T/ρs)/L (dimensional analysis of the membrane equation)
+    factor = math.sqrt(tension_scale * 0.25 / density) / size
+    assert second.frequencies_hz == pytest.approx(first.frequencies_hz * factor, rel=1e-12)
+    point = np.array([[0.3, 0.2], [0.9, 0.6]])
+    assert second.evaluate(point * size + offset) == pytest.approx(first.evaluate(point), abs=1e-9)
+    assert second.region.area == pytest.approx(first.region.area * size**2, rel=1e-9)
+    # a different tension ratio is a new solve
+    fem.polygon_membrane_basis(outline, cuts, 200.0, 200.0, 0.25, n_modes=8)
+    assert fem.eigen_solution_cache_info().misses == solves + 1
+
+
+def test_region_mesh_is_a_quadrature(square):
+    region = square.region
+    nodes, triangles = region.nodes, region.triangles
+    a, b, c = (nodes[triangles[:, i]] for i in range(3))
+    areas = 0.5 * ((b[:, 0] - a[:, 0]) * (c[:, 1] - a[:, 1]) - (b[:, 1] - a[:, 1]) * (c[:, 0] - a[:, 0]))
+    assert np.all(areas > 0)  # counter-clockwise, none degenerate
+    assert areas.sum() == pytest.approx(1.0, rel=1e-12) and region.area == pytest.approx(1.0)
+    assert signed_area(region.outline) > 0
+
+
+def test_neumann_modes_of_a_rectangle():
+    width, length = 1.5, 1.0
+    outline = ((0, 0), (width, 0), (width, length), (0, length))
+    k, evaluate = fem.neumann_modes(np.array(outline), 5)
+    # rigid-walled rectangle: k² = π²((m/a)² + (n/b)²), m, n ≥ 0 (Morse & Ingard,
+    # Theoretical Acoustics, §9.4): 0, (π/1.5)², π², π²(1/1.5² + 1), (π/0.75)²
+    exact = np.pi * np.sqrt([0, 1 / width**2, 1 / length**2, 1 / width**2 + 1 / length**2, 4 / width**2])
+    assert k[0] == 0.0
+    assert k[1:] == pytest.approx(exact[1:], rel=5e-4)
+    n = 150
+    grid = (np.stack(np.meshgrid(np.arange(n), np.arange(n)), -1).reshape(-1, 2) + 0.5) / n * [width, length]
+    values = evaluate(grid)
+    assert np.allclose(values[:, 0], 1.0)
+    assert np.mean(values**2, axis=0) == pytest.approx(np.ones(5), rel=2e-3)
+    # the (1,0) mode is √2 cos(πx/a)
+    assert np.max(np.abs(np.abs(values[:, 1]) - math.sqrt(2) * np.abs(np.cos(np.pi * grid[:, 0] / width)))) < 5e-3
+    assert np.allclose(evaluate(np.array([[2.0, 0.5], [-0.1, 0.5]])), 0.0)
+
+
+def test_neumann_ignores_cutouts():
+    # the cavity beneath a panel has the outline's walls only: same modes with or without holes
+    with_hole = fem.polygon_membrane_basis(SQUARE, (CircleCutout(0.5, 0.5, 0.3),), 1.0, 1.0, 1.0, n_modes=1)
+    k_region, _ = fem.neumann_modes(with_hole.region, 3)
+    k_outline, _ = fem.neumann_modes(np.array(SQUARE), 3)
+    assert k_region == pytest.approx(k_outline, rel=1e-12)
+    assert k_region[1] == pytest.approx(math.pi, rel=5e-4)  # (1,0) of the unit square
+
+
+def test_user_errors_are_clear_messages():
+    with pytest.raises(ValueError, match="edges 1 and 3 cross"):
+        fem.polygon_membrane_basis(((0, 0), (1, 1), (1, 0), (0, 1)), (), 1.0, 1.0, 1.0)
+    with pytest.raises(ValueError, match="crosses the outline"):
+        fem.polygon_membrane_basis(SQUARE, (CircleCutout(0.95, 0.5, 0.2),), 1.0, 1.0, 1.0)
+    with pytest.raises(ValueError, match="tension x must be a positive number"):
+        fem.polygon_membrane_basis(SQUARE, (), 0.0, 1.0, 1.0)
+    with pytest.raises(ValueError, match="areal density must be a positive number"):
+        fem.polygon_membrane_basis(SQUARE, (), 1.0, 1.0, -2.0)
+    with pytest.raises(ValueError, match="accuracy must be one of"):
+        fem.polygon_membrane_basis(SQUARE, (), 1.0, 1.0, 1.0, accuracy="best")
+    with pytest.raises(ValueError, match="lower the frequency limit"):
+        fem.polygon_membrane_basis(SQUARE, (), 1.0, 1.0, 1.0, fmax=1e4)
+
+
+def test_neumann_modes_of_the_l_shape():
+    k, _ = fem.neumann_modes(np.array(L_SHAPE), 5)
+    # Neumann eigenvalues of the L of three unit squares: 1.4756218241, 3.5340313668, then
+    # π² twice (cos πx / cos πy on the squares, exact); the first two from memory (M. Dauge,
+    # benchmark computations of the Laplacian on the L-shaped domain).
+    assert k**2 == pytest.approx([0.0, 1.4756218241, 3.5340313668, math.pi**2, math.pi**2], rel=1e-4)
