@@ -35,7 +35,8 @@ def _drawing_size(width: float, height: float, columns: int, rows: int) -> tuple
     return max(3, min(columns, used_columns)), max(3, min(rows, used_rows))
 
 
-def sketch_mode(basis: ModalBasis, index: int, columns: int = 24, rows: int = 10) -> list[str]:
+def sketch_mode(basis: ModalBasis, index: int, columns: int = 24, rows: int = 10,
+                vector: np.ndarray | None = None) -> list[str]:
     """Draw mode ``index`` of ``basis`` in characters.
 
     Parameters
@@ -46,6 +47,9 @@ def sketch_mode(basis: ModalBasis, index: int, columns: int = 24, rows: int = 10
     columns, rows : int
         The largest drawing, in characters; the panel's proportions are kept (a character
         cell is taken as twice as tall as wide), never less than 3 × 3.
+    vector : ndarray (n_basis,), optional
+        Draw this combination of basis shapes instead (an air-loaded mode's coordinates);
+        ``index`` is then ignored.
 
     Returns
     -------
@@ -74,7 +78,8 @@ def sketch_mode(basis: ModalBasis, index: int, columns: int = 24, rows: int = 10
     inside = np.asarray(basis.region.contains(points), bool)
     values = np.zeros(points.shape[0])
     if inside.any():
-        values[inside] = np.asarray(basis.evaluate(points[inside]))[:, index]
+        shapes = np.asarray(basis.evaluate(points[inside]))
+        values[inside] = shapes[:, index] if vector is None else shapes @ np.asarray(vector)
     values = values.reshape(used_rows, used_columns)
     inside = inside.reshape(used_rows, used_columns)
     peak = np.max(np.abs(values[inside])) if inside.any() else 0.0
