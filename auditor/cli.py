@@ -28,10 +28,6 @@ def _root(
     """Resonance audit of tensioned panels and mesh screens against equipment tones."""
 
 
-def main() -> None:
-    app()
-
-
 # --- schedule commands: check, template ---------------------------------------------------
 
 from pathlib import Path as _Path  # noqa: E402
@@ -189,3 +185,414 @@ def template(
         console.print(f"[red]could not write {path}[/]: {exc.strerror or exc}")
         raise typer.Exit(1) from None
     console.print(f"Wrote {written}")
+
+
+# --------------------------------------------------------------------------- modes, audit
+
+
+def _progress_bar(description: str):
+    """A rich progress bar and the ``progress(done, total)`` callable that drives it."""
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
+
+    bar = Progress(TextColumn("{task.description}"), BarColumn(), MofNCompleteColumn(),
+                   TimeElapsedColumn(), console=_err_console(), transient=True)
+    task = bar.add_task(description, total=None)
+
+    def update(done: int, total: int) -> None:
+        bar.update(task, completed=done, total=total)
+
+    return bar, update
+
+
+def _err_console():
+    from rich.console import Console
+
+    return Console(stderr=True)
+
+
+def _mode_table(panel_id: str, modes, loading: str, notes):
+    from rich.table import Table
+
+    table = Table(title=f"Panel {panel_id}", title_justify="left", caption=loading,
+                  caption_justify="left")
+    for head in ("mode", "f [Hz]", "in vacuo [Hz]", "×", "participation", "loss factor",
+                 "nodal lines"):
+        table.add_column(head, justify="right" if head not in ("mode", "nodal lines") else "left")
+    for m in modes:
+        table.add_row(
+            m.label, f"{m.frequency_hz:.2f}",
+            "" if m.in_vacuo_hz is None else f"{m.in_vacuo_hz:.2f}",
+            str(m.multiplicity), f"{m.participation:.4f}",
+            "" if m.loss_factor is None else f"{m.loss_factor:.4f}",
+            ", ".join(f"{n} {family}" for family, n in m.nodal_lines),
+        )
+    return table
+
+
+_PANEL_OPTIONS = (
+    # (option name, canonical header) for the one-off form of ``auditor modes``
+    ("shape", "shape"), ("width", "width"), ("length", "length"), ("diameter", "diameter"),
+    ("outline", "outline"), ("cutouts", "cut-outs"), ("material", "material"),
+    ("areal_density", "areal density"), ("tension", "tension"), ("tension_x", "tension x"),
+    ("tension_y", "tension y"), ("bending_stiffness", "bending stiffness"),
+    ("loss_factor", "loss factor"), ("airflow_resistance", "airflow resistance"),
+    ("room_side", "room side"), ("plenum_side", "plenum side"),
+    ("cavity_depth", "cavity depth"),
+)
+
+
+def _print_problems(console, problems) -> None:
+    from rich.table import Table
+    from rich.text import Text
+
+    if not problems:
+        return
+    table = Table(title="Rejected rows and warnings", title_justify="left")
+    for head in ("", "File", "Sheet", "Row", "Column", "Record", "Message"):
+        table.add_column(head, overflow="fold")
+    for q in problems:
+        table.add_row(Text(q.severity, style="red" if q.severity == "error" else "yellow"),
+                      Text(q.file), Text(q.sheet), "" if q.row is None else str(q.row),
+                      Text(q.column), Text(q.record), Text(q.message))
+    console.print(table)
+
+
+@app.command("modes")
+def modes(
+    schedule: list[_Path] = typer.Argument(None, help="Schedule files (.xlsx or .csv)."),
+    panel: str = typer.Option(None, "--panel", help="Only this panel id."),
+    fmax: float = typer.Option(500.0, "--fmax", help="Highest frequency [Hz]."),
+    max_modes: int = typer.Option(30, "--max-modes", help="At most this many modes a panel."),
+    as_json: bool = typer.Option(False, "--json", help="Print the modes as JSON."),
+    sketch: int = typer.Option(4, "--sketch", help="Sketch this many modes a panel (text form)."),
+    shape: str = typer.Option(None, help="One-off panel: rectangle, circle or polygon."),
+    width: str = typer.Option(None, help="One-off: width along x, e.g. '2400 mm'."),
+    length: str = typer.Option(None, help="One-off: length along y."),
+    diameter: str = typer.Option(None, help="One-off: diameter of a circle."),
+    outline: str = typer.Option(None, help="One-off: polygon 'x,y; x,y; ...' [m]."),
+    cutouts: str = typer.Option(None, "--cut-outs", help="One-off: 'circle x,y,d | x,y; ...'."),
+    material: str = typer.Option(None, help="One-off: film, fabric, mesh or plate."),
+    areal_density: str = typer.Option(None, help="One-off: e.g. '250 g/m^2'."),
+    tension: str = typer.Option(None, help="One-off: e.g. '800 N/m' (both directions)."),
+    tension_x: str = typer.Option(None, help="One-off: tension along the width."),
+    tension_y: str = typer.Option(None, help="One-off: tension along the length."),
+    bending_stiffness: str = typer.Option(None, help="One-off: flexural rigidity [N·m]."),
+    loss_factor: str = typer.Option(None, help="One-off: structural loss factor."),
+    airflow_resistance: str = typer.Option(None, help="One-off: [Pa·s/m]."),
+    room_side: str = typer.Option(None, help="One-off: air or none."),
+    plenum_side: str = typer.Option(None, help="One-off: air, sealed or none."),
+    cavity_depth: str = typer.Option(None, help="One-off: depth of a sealed plenum."),
+) -> None:
+    """Natural frequencies, patterns and participation of panels (from a schedule, or one-off)."""
+    import json
+
+    from rich.console import Console
+
+    from auditor.physics.modes import GeometryError, modes_for
+    from auditor.report.exports import panel_modes_dict
+    from auditor.report.sketch import sketch_mode
+    from auditor.schedule import read_rows, read_schedule
+
+    given = locals()
+    one_off = {header: given[name] for name, header in _PANEL_OPTIONS if given[name] is not None}
+    console = Console(stderr=as_json)
+    if one_off and schedule:
+        console.print("[red]give either schedule files or one-off panel options, not both[/]")
+        raise typer.Exit(2)
+    if one_off:
+        read = read_rows(["panel", *one_off], [["one-off", *one_off.values()]])
+    elif schedule:
+        read = read_schedule(schedule)
+        if not read.files:
+            _print_problems(console, read.problems)
+            raise typer.Exit(2)
+    else:
+        console.print("[red]give schedule files, or a one-off panel[/] "
+                      "(e.g. --width '2400 mm' --length 1.2 --tension '800 N/m' "
+                      "--areal-density '250 g/m^2')")
+        raise typer.Exit(2)
+    panels = [p for p in read.panels if panel is None or p.panel == panel]
+    if panel is not None and not panels:
+        console.print(f"[red]no panel {panel!r} in the schedule[/]")
+        raise typer.Exit(2)
+    problems = list(read.problems)
+    out = []
+    bar, update = _progress_bar("Solving modes")
+    with bar:
+        for done, p in enumerate(panels, start=1):
+            try:
+                result = modes_for(p, fmax, max_modes=max_modes,
+                                   air_density=read.project.air_density,
+                                   speed_of_sound=read.project.speed_of_sound)
+            except (GeometryError, ValueError) as exc:
+                problems.append(_panel_problem(p, str(exc)))
+                continue
+            out.append((p, result))
+            update(done, len(panels))
+    if as_json:
+        doc = {"panels": [panel_modes_dict(p, r) for p, r in out],
+               "problems": [q.as_dict() for q in problems]}
+        typer.echo(json.dumps(doc, indent=1, ensure_ascii=False))
+    else:
+        for p, r in out:
+            console.print(_mode_table(p.panel, r.modes, r.loading, r.notes))
+            for note in r.notes:
+                console.print(f"  note: {note}")
+            for k, m in enumerate(r.modes[:max(0, sketch)]):
+                console.print(f"  {m.label}  {m.frequency_hz:.1f} Hz")
+                for line in sketch_mode(r.basis, m.index, vector=r.vectors[:, k]):
+                    console.print("    " + line, markup=False, highlight=False)
+        _print_problems(console, problems)
+    raise typer.Exit(0 if out or not problems else 2)
+
+
+def _panel_problem(p, message: str):
+    from auditor.model import RowProblem
+
+    return RowProblem(file=p.source.file, sheet=p.source.sheet, row=p.source.row,
+                      column="outline" if p.shape == "polygon" else "", message=message,
+                      severity="error", record=p.panel)
+
+
+_FORMATS = ("pdf", "json", "csv", "xlsx")
+
+
+def _run_audit(schedule, rules, out, as_json, fail_on, formats, detail, calibrated,
+               console) -> int:
+    """The shared body of ``audit`` and ``demo``; returns the exit code."""
+    from auditor.audit import audit as run
+    from auditor.report import exports
+    from auditor.rules import RuleSetError
+
+    wanted = [f.strip().lower() for f in formats.split(",") if f.strip()]
+    unknown = [f for f in wanted if f not in _FORMATS]
+    if unknown:
+        console.print(f"[red]unknown format {unknown[0]!r}[/]; choose from {', '.join(_FORMATS)}")
+        return 2
+    if fail_on not in (None, "conflict", "caution"):
+        console.print("[red]--fail-on takes conflict or caution[/]")
+        return 2
+    bar, update = _progress_bar("Auditing panels")
+    try:
+        with bar:
+            result = run(schedule, rules=rules, calibrated=calibrated,
+                         with_shapes=out is not None and "pdf" in wanted, progress=update)
+    except RuleSetError as exc:
+        console.print(f"[red]rule set:[/] {exc}", markup=True, highlight=False)
+        return 2
+    if not result.schedule.files:
+        _print_problems(console, result.problems)
+        console.print("[red]no schedule file could be read[/]")
+        return 2
+    if out is not None:
+        out = _Path(out)
+        written = []
+        if "json" in wanted:
+            written.append(exports.write_json(result, out / "findings.json"))
+        if "csv" in wanted:
+            written.append(exports.write_csv(result, out / "findings.csv"))
+        if "xlsx" in wanted:
+            written.extend(exports.write_audited_workbooks(result, out))
+        if "pdf" in wanted:
+            from auditor.report.pdf import write_pdf
+
+            bar, update = _progress_bar("Writing the PDF")
+            with bar:
+                written.append(write_pdf(result, out / "audit.pdf", detail=detail,
+                                         progress=update))
+    if as_json:
+        typer.echo(exports.findings_json(result))
+    else:
+        _print_summary(console, result)
+        if out is not None:
+            for path in written:
+                console.print(f"wrote {path}")
+    summary = result.summary()
+    if fail_on == "conflict" and summary["conflicts"]:
+        return 1
+    if fail_on == "caution" and (summary["conflicts"] or summary["cautions"]):
+        return 1
+    return 0
+
+
+def _print_summary(console, result) -> None:
+    from rich.table import Table
+    from rich.text import Text
+
+    s = result.summary()
+    table = Table(title="Conflicts", title_justify="left")
+    for head in ("Panel", "Mode", "Hz", "Equipment", "Excitation", "Hz", "Sep.", "Remedy"):
+        table.add_column(head, overflow="fold")
+    for f in result.findings:
+        if f.severity != "conflict":
+            continue
+        e = f.excitation
+        exc_hz = (f"{e.band_hz[0]:.1f}–{e.band_hz[1]:.1f}" if e.band_hz
+                  else f"{e.frequency_hz:.1f}")
+        table.add_row(Text(f.panel), f.mode.label, f"{f.mode.frequency_hz:.1f}",
+                      Text(e.equipment), Text(e.description), exc_hz,
+                      f"{100 * f.separation:+.1f} %",
+                      Text(f.remedy.text if f.remedy else ""))
+    if s["conflicts"]:
+        console.print(table)
+    _print_problems(console, result.problems)
+    console.print(
+        f"{s['panels']} panels, {s['equipment']} equipment items, rule set "
+        f"'{result.ruleset.name}': [bold red]{s['conflicts']} conflicts[/], "
+        f"[yellow]{s['cautions']} cautions[/], {s['panels_clear']} panels clear; "
+        f"{s['rejected_rows']} rejected rows, {s['warnings']} warnings.")
+
+
+_AUDIT_HELP = {
+    "rules": "Rule set: a name from rules/ (standard, strict) or a TOML file.",
+    "out": "Write findings.json, findings.csv, <schedule>-audited.xlsx and audit.pdf here.",
+    "json": "Print the findings document as JSON.",
+    "fail_on": "Exit 1 when a conflict (or a caution) is found.",
+    "format": "Comma-separated outputs for --out: pdf, json, csv, xlsx.",
+    "detail": "PDF: a page for each panel with findings, or for all panels.",
+    "calibrated": "Use tensions fitted to the schedule's tap-test recordings.",
+}
+
+
+@app.command("audit")
+def audit_command(
+    schedule: list[_Path] = typer.Argument(..., help="Schedule files (.xlsx or .csv)."),
+    rules: str = typer.Option("standard", "--rules", help=_AUDIT_HELP["rules"]),
+    out: _Path = typer.Option(None, "--out", help=_AUDIT_HELP["out"]),
+    as_json: bool = typer.Option(False, "--json", help=_AUDIT_HELP["json"]),
+    fail_on: str = typer.Option(None, "--fail-on", help=_AUDIT_HELP["fail_on"]),
+    formats: str = typer.Option("pdf,json,csv,xlsx", "--format", help=_AUDIT_HELP["format"]),
+    detail: str = typer.Option("findings", "--detail", help=_AUDIT_HELP["detail"]),
+    calibrated: bool = typer.Option(False, "--calibrated", help=_AUDIT_HELP["calibrated"]),
+) -> None:
+    """Audit every panel against every equipment tone that reaches it."""
+    from rich.console import Console
+
+    console = Console(stderr=as_json)
+    raise typer.Exit(_run_audit(schedule, rules, out, as_json, fail_on, formats, detail,
+                                calibrated, console))
+
+
+@app.command("demo")
+def demo(
+    out: _Path = typer.Option(_Path("demo-audit"), "--out", help=_AUDIT_HELP["out"]),
+    rules: str = typer.Option("standard", "--rules", help=_AUDIT_HELP["rules"]),
+    detail: str = typer.Option("findings", "--detail", help=_AUDIT_HELP["detail"]),
+) -> None:
+    """Audit the bundled, invented demo project (templates/demo-project.xlsx)."""
+    from rich.console import Console
+
+    from auditor.resources import demo_workbook
+
+    console = Console()
+    console.print(f"Auditing the demo project {demo_workbook()}")
+    raise typer.Exit(_run_audit([demo_workbook()], rules, out, False, None,
+                                ",".join(_FORMATS), detail, True, console))
+
+
+@app.command("rules")
+def rules_command(
+    name: str = typer.Argument(None, help="A rule set to show in full (name or TOML path)."),
+    as_json: bool = typer.Option(False, "--json", help="Print as JSON."),
+) -> None:
+    """List the rule sets, or show one."""
+    import json
+
+    from rich.console import Console
+    from rich.table import Table
+    from rich.text import Text
+
+    from auditor.rules import RuleSetError, list_rulesets, load_ruleset
+
+    console = Console()
+    if name is None:
+        sets = list_rulesets()
+        if as_json:
+            typer.echo(json.dumps([r.as_dict() for r in sets], indent=1, ensure_ascii=False))
+            return
+        table = Table(title="Rule sets", title_justify="left")
+        for head in ("Name", "Conflict", "Caution", "Description", "File"):
+            table.add_column(head, overflow="fold")
+        for r in sets:
+            table.add_row(Text(r.name), f"±{100 * r.conflict_margin:g} %",
+                          f"±{100 * r.caution_margin:g} %", Text(r.description), Text(r.path))
+        console.print(table)
+        return
+    try:
+        ruleset = load_ruleset(name)
+    except (RuleSetError, FileNotFoundError) as exc:
+        console.print(Text(f"rule set: {exc}", style="red"))
+        raise typer.Exit(2) from None
+    if as_json:
+        typer.echo(json.dumps(ruleset.as_dict(), indent=1, ensure_ascii=False))
+        return
+    table = Table(title=f"Rule set {ruleset.name}", title_justify="left", show_header=False)
+    table.add_column("key")
+    table.add_column("value", overflow="fold")
+    for key, value in ruleset.as_dict().items():
+        table.add_row(Text(str(key)), Text(json.dumps(value, ensure_ascii=False)
+                                           if not isinstance(value, str) else value))
+    console.print(table)
+
+
+@app.command("calibrate")
+def calibrate_command(
+    schedule: list[_Path] = typer.Argument(..., help="Schedule files with a 'tap test' column."),
+    panel: str = typer.Option(None, "--panel", help="Only this panel id."),
+    fit: str = typer.Option("tension", "--fit",
+                            help="What to fit: tension, tension-ratio or areal-density."),
+    as_json: bool = typer.Option(False, "--json", help="Print the calibrations as JSON."),
+) -> None:
+    """Fit each panel's tension to its tap-test recording and compare with the schedule."""
+    import json
+
+    from rich.console import Console
+    from rich.table import Table
+    from rich.text import Text
+
+    from auditor.audit import CALIBRATION_FMAX_HZ, CALIBRATION_MAX_MODES
+    from auditor.calibrate import calibrate_schedule, calibration_to_dict
+    from auditor.physics.modes import modes_for
+    from auditor.schedule import read_schedule
+
+    console = Console(stderr=as_json)
+    fits = {"tension": "tension", "tension-ratio": "tension_ratio",
+            "areal-density": "areal_density"}
+    if fit not in fits:
+        console.print(f"[red]--fit takes one of {', '.join(fits)}[/]")
+        raise typer.Exit(2)
+    read = read_schedule(schedule)
+    if not read.files:
+        _print_problems(console, read.problems)
+        raise typer.Exit(2)
+
+    def modes_of(p):
+        return modes_for(p, CALIBRATION_FMAX_HZ, max_modes=CALIBRATION_MAX_MODES,
+                         air_density=read.project.air_density,
+                         speed_of_sound=read.project.speed_of_sound).modes
+
+    with console.status("Fitting tap tests"):
+        calibrations, problems = calibrate_schedule(read, modes_of, panel_id=panel,
+                                                    fit=fits[fit])
+    problems = list(read.problems) + list(problems)
+    if as_json:
+        typer.echo(json.dumps({"panels": [calibration_to_dict(c) for c in calibrations],
+                               "problems": [q.as_dict() for q in problems]},
+                              indent=1, ensure_ascii=False))
+    else:
+        table = Table(title="Tap-test calibration", title_justify="left")
+        for head in ("Panel", "Scheduled [N/m]", "Fitted [N/m]", "Change", "±", "Peaks",
+                     "Matched", "Residual"):
+            table.add_column(head, overflow="fold")
+        for c in calibrations:
+            table.add_row(Text(c.panel), f"{c.scheduled_tension:.0f}", f"{c.tension:.0f}",
+                          f"{100 * (c.tension / c.scheduled_tension - 1):+.1f} %",
+                          f"{100 * c.uncertainty:.1f} %", str(len(c.peaks_hz)),
+                          str(len(c.matched)), f"{c.residual:.2f} %")
+        console.print(table)
+        _print_problems(console, problems)
+    raise typer.Exit(0 if calibrations or not problems else 2)
+
+
+def main() -> None:
+    app()

@@ -1,0 +1,384 @@
+"""Air loading, sealed cavities and porosity (auditor.physics.fluid, auditor.physics.materials).
+
+Every check compares with something outside the project: a published result (named beside
+it), a general-purpose reference library (scipy.special), or a fact of the trade (marked
+"common practice").
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+from scipy import special
+
+from auditor.physics import fluid, materials, membrane
+from auditor.physics.basis import CircleRegion, ModalBasis, RectangleRegion
+
+RHO = 1.204      # [kg/m³]
+C = 343.0        # [m/s]
+
+
+# --------------------------------------------------------------------------------------------
+# Test bases
+# --------------------------------------------------------------------------------------------
+
+def _single_shape_basis(region, shape) -> ModalBasis:
+    """A one-mode 'basis' holding an arbitrary shape (not normalised: the routine only
+    integrates it)."""
+    return ModalBasis(
+        region=region,
+        frequencies_hz=np.array([1.0]),
+        labels=("#1",),
+        multiplicity=np.ones(1, int),
+        mean=np.zeros(1),
+        nodal_lines=((),),
+        evaluate=lambda points: shape(np.asarray(points, float))[:, None],
+    )
+
+
+def _rectangle(tension, density, width, length):
+    return lambda f: membrane.rectangular_membrane_basis(tension, tension, density, width, length, f)
+
+
+RADIUS = 0.5
+PISTON = _single_shape_basis(
+    CircleRegion(RADIUS), lambda p: (np.hypot(p[:, 0], p[:, 1]) <= RADIUS).astype(float))
+LAMB = _single_shape_basis(
+    CircleRegion(RADIUS),
+    lambda p: np.where(np.hypot(p[:, 0], p[:, 1]) <= RADIUS,
+                       (1.0 - (p[:, 0] ** 2 + p[:, 1] ** 2) / RADIUS**2) ** 2, 0.0))
+
+
+# --------------------------------------------------------------------------------------------
+# Baffled half-space: published results
+# --------------------------------------------------------------------------------------------
+
+def test_piston_low_frequency_radiation_mass_and_resistance():
+    # Baffled circular piston, ka ≪ 1: radiation mass (8/3) ρ0 a³ per side and radiation
+    # resistance ρ0 c π a² (ka)²/2 (Kinsler, Frey, Coppens & Sanders, Fundamentals of
+    # Acoustics, 4th ed., §7.5).
+    mass = fluid.baffled_added_mass(PISTON, RHO)[0, 0]
+    assert mass == pytest.approx(8.0 / 3.0 * RHO * RADIUS**3, rel=2e-3)
+    ka = 0.05
+    frequency = ka * C / (2 * np.pi * RADIUS)
+    impedance = fluid.baffled_air_impedance(PISTON, frequency, air_density=RHO, speed_of_sound=C)
+    assert impedance.resistance[0, 0] == pytest.approx(RHO * C * np.pi * RADIUS**2 * ka**2 / 2, rel=3e-3)
+    assert impedance.added_mass[0, 0] == pytest.approx(8.0 / 3.0 * RHO * RADIUS**3, rel=3e-3)
+
+
+@pytest.mark.parametrize("ka", [0.5, 1.0, 2.0, 3.0])
+def test_piston_impedance_at_any_ka(ka):
+    # Exact baffled-piston impedance Z = ρ0cπa² [1 − J1(2ka)/(ka) + i H1(2ka)/(ka)] (Kinsler et
+    # al., 4th ed., §7.5), with J1 and the Struve function H1 from scipy.special.
+    frequency = ka * C / (2 * np.pi * RADIUS)
+    impedance = fluid.baffled_air_impedance(PISTON, frequency, air_density=RHO, speed_of_sound=C)
+    area = np.pi * RADIUS**2
+    resistance = RHO * C * area * (1.0 - special.j1(2 * ka) / ka)
+    reactance = RHO * C * area * special.struve(1, 2 * ka) / ka
+    assert impedance.resistance[0, 0] == pytest.approx(resistance, rel=3e-3)
+    assert 2 * np.pi * frequency * impedance.added_mass[0, 0] == pytest.approx(reactance, rel=3e-3)
+
+
+def test_lamb_added_virtual_mass_factor():
+    # Lamb's AVMI factor β = 0.6689 for the clamped circular plate's fundamental, Lamb's shape
+    # (1 − r²/a²)², fluid on one side: f_wet = f_dry / √(1 + β ρ a/(ρ_plate h)), i.e. modal added
+    # mass = β ρ a ∫φ² dA (H. Lamb, Proc. R. Soc. Lond. A 98, 1920). ∫φ² dA = π a²/5 exactly.
+    added = fluid.baffled_added_mass(LAMB, RHO)[0, 0]
+    beta = added / (RHO * RADIUS * np.pi * RADIUS**2 / 5.0)
+    assert beta == pytest.approx(0.6689, abs=1.5e-3)
+
+
+def test_unit_square_inverse_distance_integral():
+    # ∬∬ dA dA'/|x − x'| over the unit square = 4 ln(1 + √2) − (4/3)(√2 − 1) ≈ 2.9732 (the
+    # classical closed form for a square, from memory), through the point quadrature.
+    square = _single_shape_basis(RectangleRegion(1.0, 1.0), lambda p: np.ones(len(p)))
+    kernel = fluid.baffled_added_mass(square, 1.0)[0, 0] * 2 * np.pi
+    assert kernel == pytest.approx(4 * math.log(1 + math.sqrt(2)) - 4.0 / 3.0 * (math.sqrt(2) - 1), rel=2e-3)
+
+
+def test_analytic_rectangle_and_disc_agree_with_point_quadrature():
+    # The closed-form paths (sine correlations; Hankel transforms) against the general point
+    # quadrature that the piston and Lamb checks above validate.
+    for basis in (membrane.rectangular_membrane_basis(500, 300, 0.25, 1.2, 0.7, 60),
+                  membrane.circular_membrane_basis(500, 0.25, 0.6, 70)):
+        analytic = fluid.baffled_added_mass(basis, RHO)
+        family = fluid._point_family(basis, cells_target=4000)
+        quadrature = RHO * fluid._points_added_mass_normalised(family) / (2 * np.pi)
+        scale = np.max(np.abs(analytic))
+        assert np.max(np.abs(analytic - quadrature)) < 2e-3 * scale
+
+
+@pytest.mark.parametrize("basis", [
+    membrane.rectangular_membrane_basis(600, 400, 0.3, 1.5, 0.9, 90),
+    membrane.circular_membrane_basis(600, 0.3, 0.5, 120),
+])
+def test_added_mass_is_symmetric_positive_definite(basis):
+    # A kinetic energy: the added-mass matrix of a half-space is symmetric positive definite
+    # (Rayleigh, The Theory of Sound, vol. II, §278: the energy of the motion is positive).
+    added = fluid.baffled_added_mass(basis, RHO)
+    assert np.allclose(added, added.T, rtol=0, atol=1e-12 * np.max(np.abs(added)))
+    assert np.min(np.linalg.eigvalsh(added)) > 0
+    # and it couples modes: some off-diagonal entries are not small.
+    off = added - np.diag(np.diag(added))
+    assert np.max(np.abs(off)) > 0.1 * np.max(np.diag(added))
+
+
+# --------------------------------------------------------------------------------------------
+# Loaded modes
+# --------------------------------------------------------------------------------------------
+
+def test_headline_film_fundamental_drops_by_more_than_half():
+    # A 250 g/m² film 1.2 m × 1.2 m at 500 N/m with air on both sides: the air it moves
+    # (about 4.7 times its own mass for the fundamental) brings the fundamental down by more
+    # than a factor of two (DESIGN: "falls by a factor of two or more"; common practice for
+    # stretched film). In vacuo f11 = ½ √(T/ρs) √2 / L (Rayleigh, §194) = 26.35 Hz.
+    loaded = fluid.loaded_modes(_rectangle(500, 0.25, 1.2, 1.2), 0.25, fmax=40)
+    f_vacuum = 0.5 * math.sqrt(500 / 0.25) * math.sqrt(2) / 1.2
+    assert loaded.in_vacuo_hz[0] == pytest.approx(f_vacuum, rel=1e-12)
+    ratio = loaded.frequencies_hz[0] / f_vacuum
+    assert 0.36 < ratio < 0.5                      # computed: 0.415 (10.94 Hz)
+    assert loaded.labels[0] == "(1,1)"
+    assert loaded.participation[0] > 0.6           # 64/π⁴ = 0.657 in vacuo (DESIGN)
+
+
+def test_radiation_loss_factor_of_a_compact_mode():
+    # For a mode much smaller than the wavelength the modal radiation resistance per baffled
+    # side is that of a compact source of volume velocity ∫ψ: R = ρ0 c k² (∫ψ dA)²/(2π)
+    # (Kinsler et al., §7.5, the low-ka piston result written for any volume velocity);
+    # η_rad = R/(ω M_total) with ω² M_total = ψᵀKψ.
+    density = 0.25
+    loaded = fluid.loaded_modes(_rectangle(500, density, 1.2, 1.2), density, fmax=20)
+    q = loaded.vectors[:, 0]
+    basis = loaded.basis
+    area = 1.44
+    omega = 2 * np.pi * loaded.frequencies_hz[0]
+    k = omega / C
+    volume = area * np.dot(q, basis.mean)
+    resistance = 2 * RHO * C * k**2 * volume**2 / (2 * np.pi)
+    total_mass = density * area * np.sum(q**2 * (2 * np.pi * basis.frequencies_hz) ** 2) / omega**2
+    expected = resistance / (omega * total_mass)
+    assert loaded.radiation_loss_factor[0] == pytest.approx(expected, rel=0.03)
+    assert loaded.loss_factor[0] == pytest.approx(materials.DEFAULT_LOSS_FACTORS["film"]
+                                                  + loaded.radiation_loss_factor[0], rel=1e-6)
+
+
+def test_fundamental_converges_with_basis_size():
+    # Convergence (numerical fact): the loaded fundamental settles as the in-vacuo basis
+    # grows; successive differences shrink and fall below 0.5 %.
+    basis_for = _rectangle(800, 0.2, 1.8, 1.1)
+    results = []
+    sizes = []
+    for count in (12, 48, 192):
+        loaded = fluid.loaded_modes(basis_for, 0.2, fmax=60, basis_extent=4.0, max_basis=count)
+        results.append(loaded.frequencies_hz[0])
+        sizes.append(len(loaded.basis))
+    first, second = abs(results[1] / results[0] - 1), abs(results[2] / results[1] - 1)
+    assert sizes == [12, 48, 192]
+    assert second < first or second < 1e-6
+    assert second < 0.005
+
+
+def test_mass_air_mass_resonance_of_a_limp_panel():
+    # A limp panel (very low tension) on a sealed cavity, nothing on the room side, resonates
+    # at f0 = (1/2π) √(ρ0c²/(m d)) ≈ 60/√(m d) (common practice in building acoustics; 59.9
+    # with 1.204 kg/m³ and 343 m/s). Clamped-edge modes only approach piston motion as the basis
+    # grows (the edge layer shrinks like N^(−1/2)), so the resonance approaches f0 from below;
+    # Richardson extrapolation in N^(−1/2) closes the gap.
+    m, d, size = 5.0, 0.05, 1.2
+    f0 = fluid.mass_air_mass_frequency(m, d)
+    assert f0 == pytest.approx(60.0 / math.sqrt(m * d), rel=3e-3)
+    estimates = []
+    for count in (50, 200):
+        def basis_for(f, count=count):
+            return membrane.rectangular_membrane_basis(0.5, 0.5, m, size, size, math.inf, max_modes=count)
+
+        loaded = fluid.loaded_modes(basis_for, m, fmax=400, max_modes=count, room_side="none",
+                                    plenum_side="sealed", cavity_depth=d, max_basis=count)
+        piston = int(np.argmax(loaded.participation))
+        assert loaded.labels[piston] == "(1,1)"
+        estimates.append(loaded.frequencies_hz[piston])
+    assert estimates[0] < estimates[1] < f0
+    extrapolated = estimates[1] + (estimates[1] - estimates[0])      # N ratio 4: (1/2)/(1 − 1/2)
+    assert extrapolated == pytest.approx(f0, rel=0.01)
+
+
+def test_shallow_cavity_stiffness_is_the_uniform_pressure_spring():
+    # Dowell's low-frequency limit: the uniform cavity mode adds the stiffness
+    # ρ0c² (∫φp)(∫φq)/V (Dowell, Gorman & Smith, J. Sound Vib. 52, 1977), with ∫φ = A·mean
+    # from the basis (mean = 8/(π² m n) for odd m, n; DESIGN).
+    basis = membrane.rectangular_membrane_basis(500, 500, 0.25, 1.2, 0.8, 60)
+    depth = 0.1
+    stiffness, mass = fluid.cavity_dynamic_mass(basis, depth, 0.0)
+    area = 1.2 * 0.8
+    integral = area * basis.mean
+    expected = RHO * C**2 * np.outer(integral, integral) / (area * depth)
+    assert np.allclose(stiffness, expected, rtol=1e-9, atol=1e-9 * expected.max())
+    assert np.min(np.linalg.eigvalsh(mass)) > -1e-12 * np.max(mass)
+
+
+def test_deep_sealed_cavity_tends_to_a_rigid_duct():
+    # As the depth grows the cross modes' pressure ρ0ω² coth(κd)/κ tends to ρ0ω²/κ: the load of
+    # a semi-infinite rigid-walled duct of the panel's section (coth → 1; Morse & Ingard,
+    # Theoretical Acoustics, 1968, ch. 9); modes of zero mean never feel the uniform-mode stiffness,
+    # so their frequencies settle.
+    basis_for = _rectangle(500, 0.25, 1.2, 0.9)
+    settled = []
+    for depth in (3.0, 30.0):
+        loaded = fluid.loaded_modes(basis_for, 0.25, fmax=50, room_side="none",
+                                    plenum_side="sealed", cavity_depth=depth)
+        index = loaded.labels.index("(2,1)")
+        assert loaded.participation[index] < 1e-12
+        settled.append(loaded.frequencies_hz[index])
+    assert settled[1] == pytest.approx(settled[0], rel=1e-4)
+    # and the shallow cavity loads them far more (lateral flow, mass ρ0/(κ²d)): lower frequency
+    shallow = fluid.loaded_modes(basis_for, 0.25, fmax=50, room_side="none",
+                                 plenum_side="sealed", cavity_depth=0.05)
+    assert shallow.frequencies_hz[shallow.labels.index("(2,1)")] < 0.8 * settled[1]
+
+
+def test_porous_limits():
+    # Series flow resistance, Z_eff = Z r/(Z + r) (U. Ingard, Notes on Acoustics, 2008): r → ∞
+    # is the impervious sheet, r → 0 leaves the panel in vacuo with its structural damping.
+    basis_for = _rectangle(500, 0.25, 1.2, 0.9)
+    impervious = fluid.loaded_modes(basis_for, 0.25, fmax=60, material="fabric")
+    vacuum = fluid.loaded_modes(basis_for, 0.25, fmax=60, room_side="none", plenum_side="none",
+                                material="fabric")
+    tight = fluid.loaded_modes(basis_for, 0.25, fmax=60, material="fabric", airflow_resistance=1e9)
+    open_weave = fluid.loaded_modes(basis_for, 0.25, fmax=60, material="fabric", airflow_resistance=1e-4)
+    k = 4
+    assert np.allclose(tight.frequencies_hz[:k], impervious.frequencies_hz[:k], rtol=1e-5)
+    assert np.allclose(tight.loss_factor[:k], impervious.loss_factor[:k], rtol=1e-3)
+    assert np.allclose(open_weave.frequencies_hz[:k], vacuum.frequencies_hz[:k], rtol=1e-5)
+    assert np.allclose(open_weave.loss_factor[:k], materials.DEFAULT_LOSS_FACTORS["fabric"], rtol=1e-3)
+    # In between, the flow through the weave dissipates: the loss factor exceeds the
+    # structural one and the frequency lies between the two limits.
+    middle = fluid.loaded_modes(basis_for, 0.25, fmax=60, material="fabric", airflow_resistance=100.0)
+    assert impervious.frequencies_hz[0] < middle.frequencies_hz[0] < vacuum.frequencies_hz[0]
+    assert middle.loss_factor[0] > impervious.loss_factor[0] + 0.1
+
+
+def test_open_mesh_without_resistance_carries_no_air():
+    # A mesh with no airflow resistance given passes air freely (its open area): in-vacuo
+    # modes and the structural loss factor (common practice for open mesh screens).
+    basis_for = _rectangle(2000, 1.5, 1.0, 1.0)
+    loaded = fluid.loaded_modes(basis_for, 1.5, fmax=200, material="mesh")
+    basis = basis_for(200)
+    assert np.allclose(loaded.frequencies_hz, basis.frequencies_hz[basis.frequencies_hz <= 200][:60])
+    assert np.allclose(loaded.loss_factor, materials.DEFAULT_LOSS_FACTORS["mesh"])
+    assert "no air mass loading" in loaded.model
+
+
+def test_vacuum_returns_the_basis_and_reports_its_model():
+    basis_for = _rectangle(700, 0.3, 1.0, 0.6)
+    loaded = fluid.loaded_modes(basis_for, 0.3, fmax=150, room_side="none", plenum_side="none")
+    basis = basis_for(150)
+    # Rectangular membrane f_mn = ½ √(T/ρs) √((m/Lx)² + (n/Ly)²) (Rayleigh, §194).
+    expected = 0.5 * math.sqrt(700 / 0.3) * math.hypot(1 / 1.0, 1 / 0.6)
+    assert loaded.frequencies_hz[0] == pytest.approx(expected, rel=1e-12)
+    assert np.allclose(loaded.participation, basis.mean[: len(loaded)] ** 2)
+    assert "In vacuo" in loaded.model
+
+
+def test_circle_pairs_keep_their_multiplicity_and_air_lowers_every_mode():
+    # Disc modes with nodal diameters are cos/sin pairs (Rayleigh, §200): the loaded mode keeps
+    # multiplicity 2; air only adds mass on open sides, so every frequency falls.
+    basis_for = lambda f: membrane.circular_membrane_basis(500, 0.25, 0.6, f)  # noqa: E731
+    loaded = fluid.loaded_modes(basis_for, 0.25, fmax=60)
+    assert loaded.labels[0] == "(0,1)" and loaded.multiplicity[0] == 1
+    assert loaded.labels[1] == "(1,1)" and loaded.multiplicity[1] == 2
+    assert np.all(loaded.frequencies_hz < loaded.in_vacuo_hz)
+    assert np.allclose(np.sum(loaded.vectors**2, axis=0), 1.0)
+
+
+def test_user_errors_are_clear_messages():
+    basis_for = _rectangle(500, 0.25, 1.0, 1.0)
+    with pytest.raises(fluid.LoadingInputError, match="cavity depth"):
+        fluid.loaded_modes(basis_for, 0.25, fmax=50, plenum_side="sealed")
+    with pytest.raises(fluid.LoadingInputError, match="airflow resistance"):
+        fluid.loaded_modes(basis_for, 0.25, fmax=50, airflow_resistance=-1.0)
+    with pytest.raises(fluid.LoadingInputError, match="room side"):
+        fluid.loaded_modes(basis_for, 0.25, fmax=50, room_side="garden")
+    with pytest.raises(fluid.LoadingInputError, match="areal density"):
+        fluid.loaded_modes(basis_for, 0.0, fmax=50)
+    with pytest.raises(fluid.LoadingInputError, match="material"):
+        fluid.loaded_modes(basis_for, 0.25, fmax=50, material="glass")
+
+
+# --------------------------------------------------------------------------------------------
+# Materials
+# --------------------------------------------------------------------------------------------
+
+def test_structural_loss_factor_defaults_and_given_values():
+    # Default loss factors lie in the ranges of common practice (film 0.02–0.05, fabric
+    # 0.05–0.1, steel mesh 0.005–0.02, plate about 0.01; from memory).
+    for material, (low, high) in materials.LOSS_FACTOR_RANGES.items():
+        assert low <= materials.structural_loss_factor(material) <= high
+    assert materials.structural_loss_factor(" Film ") == materials.DEFAULT_LOSS_FACTORS["film"]
+    assert materials.structural_loss_factor("fabric", 0.12) == 0.12
+    assert materials.structural_loss_factor("plate", float("nan")) == materials.DEFAULT_LOSS_FACTORS["plate"]
+    with pytest.raises(ValueError, match="unknown material"):
+        materials.structural_loss_factor("timber")
+    with pytest.raises(ValueError, match="between 0 and 1"):
+        materials.structural_loss_factor("film", 1.5)
+
+
+# --------------------------------------------------------------------------------------------
+# Porous sheet over a sealed cavity, polygon outlines (finite-element bases)
+# --------------------------------------------------------------------------------------------
+
+def _polygon_basis(outline, tension, density, count):
+    from auditor.physics import fem
+
+    basis = fem.polygon_membrane_basis(outline, (), tension, tension, density, n_modes=count,
+                                       accuracy="coarse")
+    return lambda f: basis
+
+
+def test_porous_sheet_over_sealed_cavity_lies_between_its_limits_on_a_trapezoid():
+    # Series flow resistance, Z_eff = Z r/(Z + r) (U. Ingard, Notes on Acoustics, 2008): r → ∞
+    # is the impervious sheet on its sealed cavity (Dowell, Gorman & Smith, J. Sound Vib. 52,
+    # 1977), r → 0 the panel in vacuo with its structural damping. A passive panel has no
+    # root at zero frequency and no negative loss factor, whatever r (common practice: a
+    # loss factor is a ratio of dissipated to stored energy).
+    basis_for = _polygon_basis([(0, 0), (1.2, 0), (0.9, 0.8), (0.3, 0.8)], 400.0, 0.2, 24)
+    common = dict(fmax=80, room_side="air", plenum_side="sealed", cavity_depth=0.05,
+                  material="fabric")
+    eta = materials.DEFAULT_LOSS_FACTORS["fabric"]
+    impervious = fluid.loaded_modes(basis_for, 0.2, **common)
+    vacuum = fluid.loaded_modes(basis_for, 0.2, fmax=80, room_side="none", plenum_side="none",
+                                material="fabric")
+    tight = fluid.loaded_modes(basis_for, 0.2, airflow_resistance=1e7, **common)
+    open_weave = fluid.loaded_modes(basis_for, 0.2, airflow_resistance=1e-3, **common)
+    k = 4
+    assert np.allclose(tight.frequencies_hz[:k], impervious.frequencies_hz[:k], rtol=1e-4)
+    assert np.allclose(tight.loss_factor[:k], impervious.loss_factor[:k], rtol=1e-2)
+    assert np.allclose(open_weave.frequencies_hz[:k], vacuum.frequencies_hz[:k], rtol=1e-4)
+    assert np.allclose(open_weave.loss_factor[:k], eta, rtol=1e-3)
+    for loaded in (tight, open_weave):
+        assert np.all(loaded.frequencies_hz > 0.3 * impervious.frequencies_hz[0])
+        assert np.all(loaded.loss_factor >= 0.0)
+    # A moderate resistance: the flow through the weave dissipates on top of the structural
+    # loss factor; the fundamental stays below the vacuum value and, being a damped root
+    # (Re ω² = ω_n²(1 − 2ζ²) for viscous damping, Kinsler et al., Fundamentals of Acoustics,
+    # 4th ed., §1.10), no more than a few per cent below the impervious one at η ≈ 0.3.
+    middle = fluid.loaded_modes(basis_for, 0.2, airflow_resistance=1000.0, **common)
+    assert 0.95 * impervious.frequencies_hz[0] < middle.frequencies_hz[0] < vacuum.frequencies_hz[0]
+    assert np.all(middle.frequencies_hz > 0.9 * impervious.frequencies_hz[0])
+    assert np.all(middle.loss_factor > eta)
+
+
+def test_square_polygon_matches_the_rectangle_with_porous_sheet_and_sealed_cavity():
+    # The same 1.2 m × 0.9 m panel by finite elements (40 modes, cavity modes by finite
+    # elements) and by the analytic rectangle path (sine modes, cosine cavity modes; Morse &
+    # Ingard, Theoretical Acoustics, 1968, §9.4) with a heavily damping weave (η ≈ 1):
+    # fundamental within 2 %, its loss factor within 6 % (the finite-element basis is smaller).
+    outline = [(0, 0), (1.2, 0), (1.2, 0.9), (0, 0.9)]
+    common = dict(fmax=80, max_modes=6, room_side="air", plenum_side="sealed",
+                  cavity_depth=0.05, material="fabric", airflow_resistance=300.0)
+    polygon = fluid.loaded_modes(_polygon_basis(outline, 400.0, 0.2, 40), 0.2, **common)
+    rectangle = fluid.loaded_modes(_rectangle(400.0, 0.2, 1.2, 0.9), 0.2, **common)
+    assert polygon.frequencies_hz[0] == pytest.approx(rectangle.frequencies_hz[0], rel=0.02)
+    assert polygon.loss_factor[0] == pytest.approx(rectangle.loss_factor[0], rel=0.06)
+    assert polygon.labels[0] != "" and np.all(polygon.loss_factor > 0.0)
