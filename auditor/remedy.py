@@ -97,8 +97,10 @@ def excitation_excess(f: np.ndarray, eta: np.ndarray, excitation: Excitation,
     lo, hi = excitation.low_hz, excitation.high_hz
     sep = np.where(f < lo, (f - lo) / lo, np.where(f > hi, (f - hi) / hi, 0.0))
     margin = ruleset.caution_margin + _widening(eta, ruleset) + SEPARATION_TOLERANCE
-    if participation is not None and excitation.airborne:
-        margin = margin - np.where(participation < ruleset.participation_threshold,
+    if participation is not None:
+        threshold = (ruleset.participation_threshold if excitation.airborne
+                     else ruleset.support_participation_threshold)
+        margin = margin - np.where(participation < threshold,
                                    ruleset.caution_margin - ruleset.conflict_margin, 0.0)
     return float(np.max(margin - np.abs(sep)))
 

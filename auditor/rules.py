@@ -117,6 +117,12 @@ class RuleSet:
     participation_threshold : float  [-]
         Below this uniform-pressure participation a mode cannot make a conflict with an
         airborne excitation (at most a caution).
+    support_participation_threshold : float  [-]
+        The same for structure-borne excitation through the fixings. A frame that moves as
+        one over a panel drives each mode through its inertial participation, the same
+        (∫φ dA)²/(A ∫φ² dA) as a uniform pressure, so a mode with none is hardly driven; only
+        a non-uniform support motion reaches it. 0 (the default) holds every mode to the full
+        margins, as for a point-driven or twisting support.
     bandwidth_widening : bool
         Widen both margins by η/2 when a mode's loss factor η is known.
     use_zones : bool
@@ -145,6 +151,7 @@ class RuleSet:
     conflict_margin: float = 0.10
     caution_margin: float = 0.20
     participation_threshold: float = 0.01
+    support_participation_threshold: float = 0.0
     bandwidth_widening: bool = True
     use_zones: bool = True
     strouhal: float = 0.2
@@ -175,6 +182,7 @@ class RuleSet:
             "conflict_margin": self.conflict_margin,
             "caution_margin": self.caution_margin,
             "participation_threshold": self.participation_threshold,
+            "support_participation_threshold": self.support_participation_threshold,
             "bandwidth_widening": self.bandwidth_widening,
             "use_zones": self.use_zones,
             "strouhal": self.strouhal,
@@ -212,6 +220,7 @@ _SCHEMA: dict[str, dict[str, tuple[str, Any]]] = {
         "conflict": ("number", 0.10),
         "caution": ("number", 0.20),
         "participation_threshold": ("number", 0.01),
+        "support_participation_threshold": ("number", 0.0),
         "bandwidth_widening": ("bool", True),
     },
     "harmonics": {_toml_key(s): ("count", n) for s, n in _DEFAULT_HARMONICS.items()},
@@ -327,6 +336,7 @@ def parse_ruleset(data: Mapping[str, Any], *, source: str = "<rule set>",
     conflict = get("margins", "conflict")
     caution = get("margins", "caution")
     threshold = get("margins", "participation_threshold")
+    support_threshold = get("margins", "support_participation_threshold")
     strouhal = get("equipment", "strouhal")
     slip = get("equipment", "default_slip")
     max_factor = get("remedy", "max_tension_factor")
@@ -356,6 +366,9 @@ def parse_ruleset(data: Mapping[str, Any], *, source: str = "<rule set>",
         raise bad("[modes] max_modes must be at least 1")
     if not 0 <= threshold < 1:
         raise bad(f"[margins] participation_threshold must be from 0 up to 1, not {threshold:g}")
+    if not 0 <= support_threshold < 1:
+        raise bad(f"[margins] support_participation_threshold must be from 0 up to 1, "
+                  f"not {support_threshold:g}")
     if not 0 < strouhal < 1:
         raise bad(f"[equipment] strouhal must be between 0 and 1 (about 0.2 for a round "
                   f"wire), not {strouhal:g}")
@@ -381,6 +394,7 @@ def parse_ruleset(data: Mapping[str, Any], *, source: str = "<rule set>",
         conflict_margin=conflict,
         caution_margin=caution,
         participation_threshold=threshold,
+        support_participation_threshold=support_threshold,
         bandwidth_widening=get("margins", "bandwidth_widening"),
         use_zones=get("zones", "use_zones"),
         strouhal=strouhal,
@@ -691,7 +705,9 @@ def _pairs(f: np.ndarray, participation: np.ndarray, eta: np.ndarray,
     caution_margin = ruleset.caution_margin + w
     within_caution = size <= caution_margin + SEPARATION_TOLERANCE
     within_conflict = size <= conflict_margin + SEPARATION_TOLERANCE
-    demoted = airborne[exc] & (participation[mode] < ruleset.participation_threshold)
+    threshold = np.where(airborne[exc], ruleset.participation_threshold,
+                         ruleset.support_participation_threshold)
+    demoted = participation[mode] < threshold
     conflict = within_conflict & ~demoted
     # A demoted pair is one grade down: a caution inside the conflict margin, nothing beyond.
     keep = np.where(demoted, within_conflict, within_caution)

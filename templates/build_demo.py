@@ -161,6 +161,45 @@ def build(path: Path = OUT) -> Path:
     return path
 
 
+#: Invented site measurements: the tension each tap-tested panel was "found" at, as a fraction
+#: of its scheduled tension, and the loss factor of the ring-down. Demo data only.
+TAP_TESTS = {"F-13": (0.86, 0.035)}
+
+
+def build_tap_tests(workbook: Path = OUT) -> list[Path]:
+    """Synthesise the demo's tap-test recordings (``taps/<panel>.wav`` beside the workbook).
+
+    Each recording is the full model's modes (air loading included) of the panel at an
+    invented installed tension, as decaying tones with noise and 100 Hz mains hum.
+    """
+    import dataclasses
+
+    from auditor.physics.modes import modes_for
+    from auditor.recording import synthesise_tap_test, write_wav
+    from auditor.schedule import read_schedule
+
+    schedule = read_schedule([workbook])
+    written = []
+    for panel in schedule.panels:
+        if panel.panel not in TAP_TESTS or not panel.tap_test:
+            continue
+        fraction, eta = TAP_TESTS[panel.panel]
+        installed = dataclasses.replace(panel, tension_x=panel.tension_x * fraction,
+                                        tension_y=panel.tension_y * fraction)
+        modes = modes_for(installed, 400.0, max_modes=12).modes
+        frequencies = [m.frequency_hz for m in modes if m.participation > 1e-3]
+        amplitudes = [m.participation ** 0.5 for m in modes if m.participation > 1e-3]
+        samples = synthesise_tap_test(frequencies, [eta] * len(frequencies), amplitudes,
+                                      sample_rate=8000, duration=3.0, noise=0.002,
+                                      hum_hz=100.0, seed=13)
+        target = workbook.parent / panel.tap_test
+        target.parent.mkdir(parents=True, exist_ok=True)
+        written.append(write_wav(target, samples, 8000, bits=16))
+    return written
+
+
 if __name__ == "__main__":
     written = build(Path(sys.argv[1]) if len(sys.argv) > 1 else OUT)
     print(f"wrote {written}")
+    for recording in build_tap_tests(written):
+        print(f"wrote {recording}")

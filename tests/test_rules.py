@@ -17,7 +17,10 @@ from auditor.rules import (
 )
 
 SRC = SourceRef(file="p.xlsx", sheet="Panels", row=3)
-STANDARD = load_ruleset("standard")
+# The bundled standard set, with structure-borne pairs held to the full margins (its support
+# participation threshold switched off) so these checks see the plain airborne/structure-borne
+# distinction; the support threshold has its own test.
+STANDARD = dataclasses.replace(load_ruleset("standard"), support_participation_threshold=0.0)
 PLAIN = dataclasses.replace(STANDARD, bandwidth_widening=False)
 
 
@@ -329,3 +332,19 @@ def test_batch_evaluation_matches_and_restores_the_collector():
     batch = evaluate_panels([(p, modes)], excs, STANDARD) \
         + evaluate_panels([(p, modes)], excs[:1], STANDARD)
     assert batch == one and one[0] != one[1] and gc.isenabled()
+
+
+def test_support_participation_threshold_demotes_structure_borne_pairs():
+    # A rigid support motion a(t) loads a clamped membrane with −ρs·a·∫φ dA per mode: the
+    # modal force is proportional to ∫φ dA, the same as for a uniform pressure (base
+    # excitation of a continuous system; e.g. Clough & Penzien, Dynamics of Structures, ch. 26).
+    # The ideal membrane's (2,1) mode has ∫φ dA = 0 (Rayleigh's sine modes).
+    mode = Mode(label="(2,1)", frequency_hz=100.0, participation=0.0)
+    shaft = Excitation("F-1", "fan", "shaft", 1, "fan shaft ×1", 102.0, airborne=False)
+    where = panel()
+    held = dataclasses.replace(STANDARD, support_participation_threshold=0.0)
+    demoting = dataclasses.replace(STANDARD, support_participation_threshold=0.005)
+    assert [f.severity for f in evaluate_panel(where, [mode], (shaft,), held)] == ["conflict"]
+    assert [f.severity for f in evaluate_panel(where, [mode], (shaft,), demoting)] == ["caution"]
+    lit = dataclasses.replace(mode, participation=64 / math.pi**4)  # (1,1): not demoted
+    assert [f.severity for f in evaluate_panel(where, [lit], (shaft,), demoting)] == ["conflict"]

@@ -649,14 +649,16 @@ def _unit_added_mass(basis: ModalBasis) -> np.ndarray:
     """Added mass per unit air density on one baffled side, ``M/ρ0``  [m³] (cached)."""
     family = _recognise(basis)
     if isinstance(family, _Points):
-        key = id(basis)
+        # The added mass depends on the shapes alone: bases that share their ``evaluate`` and
+        # region (one outline at several tensions, see modes._scaled_polygon_basis) share it.
+        key = (id(basis.evaluate), id(basis.region))
         hit = _ADDED_MASS_CACHE.get(key)
-        if hit is not None and hit[0] is basis:
-            return hit[1]
+        if hit is not None and hit[0] is basis.evaluate and hit[1] is basis.region:
+            return hit[2]
         value = _kernel_integral(family) / (2.0 * np.pi)
         if len(_ADDED_MASS_CACHE) > 32:
             _ADDED_MASS_CACHE.clear()
-        _ADDED_MASS_CACHE[key] = (basis, value)
+        _ADDED_MASS_CACHE[key] = (basis.evaluate, basis.region, value)
         return value
     return _kernel_integral(family) / (2.0 * np.pi)
 

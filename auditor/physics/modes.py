@@ -148,18 +148,39 @@ def basis_factory(panel: Panel) -> tuple[Callable[[float], ModalBasis], tuple[st
                                            for c in panel.cutouts)
 
     def build(f_limit: float) -> ModalBasis:
-        # Weyl's law, N(f) ≈ A·π·f²·ρs/√(Tx·Ty), sizes the request. A large basis is cut at
+        # Weyl's law, N(f) ≈ A·π·f²·ρs/√(Tx·Ty), sizes the request in modes (rounded up to a
+        # power of two so that nearby requests share a solve). A large basis is cut at
         # FEM_MAX_BASIS modes on the coarse mesh: its fundamental agrees with the default mesh
         # to about 1e-5 and its 40th mode to about 0.1 % (L-shape, measured), while the cost
         # of resolving hundreds of modes grows steeply.
         expected = area * np.pi * f_limit**2 * rho / np.sqrt(tx * ty)
-        if expected > FEM_MAX_BASIS:
-            return fem.polygon_membrane_basis(outline, panel.cutouts, tx, ty, rho,
-                                              n_modes=FEM_MAX_BASIS, accuracy="coarse")
-        return fem.polygon_membrane_basis(outline, panel.cutouts, tx, ty, rho, fmax=f_limit,
-                                          accuracy="default" if expected < 24 else "coarse")
+        wanted = int(np.ceil(1.2 * expected)) + 4
+        count = min(FEM_MAX_BASIS, max(16, 1 << (wanted - 1).bit_length()))
+        accuracy = "default" if count <= 16 else "coarse"
+        return _scaled_polygon_basis(outline, panel.cutouts, tx, ty, rho, count, accuracy)
 
     return build, tuple(notes)
+
+
+@lru_cache(maxsize=256)
+def _unit_polygon_basis(outline, cutouts, tension_ratio: float, count: int,
+                        accuracy: str) -> ModalBasis:
+    """A polygon's basis at tension_x = 1 N/m, tension_y = ``tension_ratio``, ρs = 1 kg/m²."""
+    return fem.polygon_membrane_basis(outline, cutouts, 1.0, tension_ratio, 1.0,
+                                      n_modes=count, accuracy=accuracy)
+
+
+def _scaled_polygon_basis(outline, cutouts, tx: float, ty: float, rho: float, count: int,
+                          accuracy: str) -> ModalBasis:
+    """The polygon's basis for the panel's tension and density, by exact rescaling.
+
+    At a fixed tension ratio the shapes do not change and every frequency scales as
+    √(Tx/ρs) (the operator is −Tx(∂²/∂x² + (Ty/Tx)∂²/∂y²)), so all panels of one outline
+    share one solve *and one shape object*: the loading step caches its air matrices by it.
+    """
+    unit = _unit_polygon_basis(tuple(outline), tuple(cutouts), round(ty / tx, 9), count,
+                               accuracy)
+    return dataclasses.replace(unit, frequencies_hz=unit.frequencies_hz * np.sqrt(tx / rho))
 
 
 def _physics_key(panel: Panel) -> Panel:

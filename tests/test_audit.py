@@ -1,0 +1,179 @@
+"""End to end: a schedule workbook → audit → findings, remedies and the written outputs.
+
+The panels here have no air on either side (room side and plenum side "none"), so their modes
+are the ideal membrane's, which the tests compute independently from Rayleigh's formula
+f_mn = ½·√(T/ρs)·√((m/Lx)² + (n/Ly)²) (Rayleigh, The Theory of Sound, vol. I, §194).
+Blade-pass frequency = blades × rpm / 60 (common practice of the trade).
+"""
+
+from __future__ import annotations
+
+import csv
+import dataclasses
+import io
+import json
+import math
+
+import openpyxl
+import pytest
+from typer.testing import CliRunner
+
+from auditor.audit import audit, audit_schedule
+from auditor.cli import app
+from auditor.report.exports import findings_csv, findings_document, write_audited_workbooks
+from auditor.rules import load_ruleset
+from auditor.schedule import read_schedule
+
+WIDTH, LENGTH, TENSION, DENSITY = 1.2, 0.9, 800.0, 0.25
+
+
+def rayleigh_f11(tension=TENSION, width=WIDTH, length=LENGTH, density=DENSITY):
+    return 0.5 * math.sqrt(tension / density) * math.hypot(1 / width, 1 / length)
+
+
+def _workbook(path, *, fan_zone="Office", panel_id="C-1", blades=6, line_frequency=50):
+    """A small schedule: one fan whose blade-pass sits 3 % above the panel's fundamental."""
+    f11 = rayleigh_f11()
+    rpm = 1.03 * f11 * 60 / blades
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws.title = "Panels"
+    ws.append(["Ceiling schedule, level 2"])
+    ws.append(["Panel", "Zone", "Width (mm)", "Length (mm)", "Tension (N/m)",
+               "Areal density (g/m²)", "Room side", "Plenum side", "Max tension (N/m)"])
+    ws.append([panel_id, "Office", 1200, 900, TENSION, 250, "none", "none", 1600])
+    ws.append(["C-2", "Corridor", 1200, 900, TENSION, 250, "none", "none", 1600])
+    ws.append(["C-3", "Office", -5, 900, TENSION, 250, "none", "none", None])
+    eq = wb.create_sheet("Equipment")
+    eq.append(["Equipment", "Kind", "Zone", "rpm", "Blades"])
+    eq.append(["AHU-1", "fan", fan_zone, rpm, blades])
+    eq.append(["TX-1", "transformer", "Plant", None, None])
+    pr = wb.create_sheet("Project")
+    pr.append(["Key", "Value"])
+    pr.append(["Project name", "Test building"])
+    if line_frequency:
+        pr.append(["Line frequency", line_frequency])
+    wb.save(path)
+    return path, rpm
+
+
+def test_blade_pass_conflict_found_with_its_frequencies(tmp_path):
+    path, rpm = _workbook(tmp_path / "s.xlsx")
+    result = audit([path])
+    (panel,) = [p for p in result.panels if p.panel.panel == "C-1"]
+    f11 = rayleigh_f11()
+    assert panel.modes[0].frequency_hz == pytest.approx(f11, rel=1e-9)
+    conflict = [f for f in panel.findings if f.severity == "conflict"
+                and f.excitation.source == "blade-pass" and f.excitation.order == 1]
+    assert conflict, panel.findings
+    f = conflict[0]
+    assert f.excitation.frequency_hz == pytest.approx(6 * rpm / 60)
+    assert f.separation == pytest.approx((f11 - 6 * rpm / 60) / (6 * rpm / 60))
+    assert f.remedy is not None and f.remedy.tension is not None
+
+
+def test_zones_are_respected(tmp_path):
+    path, _ = _workbook(tmp_path / "s.xlsx")
+    result = audit([path])
+    corridor = [p for p in result.panels if p.panel.panel == "C-2"][0]
+    assert all(f.excitation.equipment != "AHU-1" for f in corridor.findings)
+    office = [p for p in result.panels if p.panel.panel == "C-1"][0]
+    assert any(f.excitation.equipment == "AHU-1" for f in office.findings)
+
+
+def test_remedy_applied_to_the_schedule_clears_the_pair(tmp_path):
+    path, _ = _workbook(tmp_path / "s.xlsx")
+    schedule = read_schedule([path])
+    ruleset = load_ruleset("standard")
+    result = audit_schedule(schedule, ruleset, with_shapes=False)
+    (panel,) = [p for p in result.panels if p.panel.panel == "C-1"]
+    pair = next(f for f in panel.findings
+                if f.severity == "conflict" and f.excitation.equipment == "AHU-1")
+    remedy = pair.remedy
+    assert remedy.tension <= 1600.0  # within the rated maximum
+    fixed = dataclasses.replace(panel.panel, tension_x=remedy.tension,
+                                tension_y=remedy.tension_y or remedy.tension)
+    retuned = dataclasses.replace(schedule, panels=tuple(
+        fixed if p.panel == "C-1" else p for p in schedule.panels))
+    again = audit_schedule(retuned, ruleset, with_shapes=False)
+    (panel,) = [p for p in again.panels if p.panel.panel == "C-1"]
+    # the pair is (panel, excitation): that tone of that fan no longer makes any finding
+    assert not [f for f in panel.findings if f.excitation == pair.excitation]
+
+
+def test_nothing_is_lost_rejected_rows_in_every_output(tmp_path):
+    path, _ = _workbook(tmp_path / "s.xlsx", line_frequency=None)
+    result = audit([path])
+    doc = findings_document(result)
+    # the negative width and the transformer without a line frequency are both listed
+    messages = [(p["sheet"], p["row"], p["severity"]) for p in doc["problems"]]
+    assert ("Panels", 5, "error") in messages
+    assert any(p["sheet"] == "Equipment" and p["row"] == 3 for p in doc["problems"])
+    assert {p["panel"] for p in doc["panels"]} == {"C-1", "C-2"}
+    rows = list(csv.DictReader(io.StringIO(findings_csv(result))))
+    assert any(r["severity"] == "rejected row" and r["row"] == "5" for r in rows)
+    assert set(doc) >= {"panels", "problems", "summary", "rules"}
+    finding = doc["panels"][0]["findings"][0]
+    assert set(finding) >= {"mode", "mode_hz", "equipment", "excitation", "excitation_hz",
+                            "band_hz", "separation", "severity", "remedy"}
+
+
+def test_audited_workbook_keeps_every_original_cell(tmp_path):
+    path, _ = _workbook(tmp_path / "s.xlsx")
+    before = openpyxl.load_workbook(path)
+    original = {ws.title: [[c.value for c in row] for row in ws.iter_rows()]
+                for ws in before.worksheets}
+    result = audit([path])
+    (written,) = write_audited_workbooks(result, tmp_path / "out")
+    after = openpyxl.load_workbook(written)
+    for title, rows in original.items():
+        ws = after[title]
+        for r, row in enumerate(rows, start=1):
+            for c, value in enumerate(row, start=1):
+                assert ws.cell(row=r, column=c).value == value, (title, r, c)
+    status_col = len(original["Panels"][1]) + 1
+    assert after["Panels"].cell(row=2, column=status_col).value == "Audit status"
+    assert after["Panels"].cell(row=3, column=status_col).value == "conflict"
+    assert str(after["Panels"].cell(row=5, column=status_col).value).startswith("rejected")
+    assert "Findings" in after.sheetnames and "Rejected rows" in after.sheetnames
+    # the input file itself is untouched
+    assert openpyxl.load_workbook(path).sheetnames == list(original)
+
+
+def test_formula_like_text_is_neutralised_in_csv_and_xlsx(tmp_path):
+    # OWASP's guidance on CSV injection: cells starting with = + - @ are prefixed.
+    path, _ = _workbook(tmp_path / "s.xlsx", panel_id="+SUM(A1)")
+    result = audit([path])
+    rows = list(csv.reader(io.StringIO(findings_csv(result))))
+    assert any(row[1] == "'+SUM(A1)" for row in rows[1:])
+    (written,) = write_audited_workbooks(result, tmp_path / "out")
+    findings = openpyxl.load_workbook(written)["Findings"]
+    ids = {findings.cell(row=r, column=2).value for r in range(2, findings.max_row + 1)}
+    assert "'+SUM(A1)" in ids
+
+
+def test_cli_audit_json_and_fail_on(tmp_path):
+    path, _ = _workbook(tmp_path / "s.xlsx")
+    runner = CliRunner()
+    got = runner.invoke(app, ["audit", str(path), "--json"])
+    assert got.exit_code == 0, got.output
+    doc = json.loads(got.stdout)
+    assert doc["summary"]["conflicts"] >= 1
+    got = runner.invoke(app, ["audit", str(path), "--fail-on", "conflict", "--format", "json",
+                              "--out", str(tmp_path / "o")])
+    assert got.exit_code == 1
+    assert (tmp_path / "o" / "findings.json").is_file()
+    got = runner.invoke(app, ["audit", str(tmp_path / "missing.xlsx")])
+    assert got.exit_code == 2
+
+
+def test_cli_modes_one_off_matches_rayleigh():
+    runner = CliRunner()
+    got = runner.invoke(app, ["modes", "--width", "1200 mm", "--length", "0.9",
+                              "--tension", "800 N/m", "--areal-density", "250 g/m^2",
+                              "--room-side", "none", "--plenum-side", "none", "--json"])
+    assert got.exit_code == 0, got.output
+    modes = json.loads(got.stdout)["panels"][0]["modes"]
+    assert modes[0]["label"] == "(1,1)"
+    assert modes[0]["frequency_hz"] == pytest.approx(rayleigh_f11(), rel=1e-9)
+    assert modes[0]["participation"] == pytest.approx(64 / math.pi**4)
