@@ -210,11 +210,16 @@ def _err_console():
     return Console(stderr=True)
 
 
+_FAMILY_SHORT = {"parallel to length": "∥L", "parallel to width": "∥W",
+                 "diameters": " diam.", "circles": " circ.", "nodal domains": " domains"}
+
+
 def _mode_table(panel_id: str, modes, loading: str, notes):
     from rich.table import Table
 
-    table = Table(title=f"Panel {panel_id}", title_justify="left", caption=loading,
-                  caption_justify="left")
+    table = Table(title=f"Panel {panel_id}", title_justify="left",
+                  caption=loading + "  Nodal lines: ∥L parallel to the length, ∥W to the "
+                  "width.", caption_justify="left")
     for head in ("mode", "f [Hz]", "in vacuo [Hz]", "×", "participation", "loss factor",
                  "nodal lines"):
         table.add_column(head, justify="right" if head not in ("mode", "nodal lines") else "left")
@@ -224,7 +229,8 @@ def _mode_table(panel_id: str, modes, loading: str, notes):
             "" if m.in_vacuo_hz is None else f"{m.in_vacuo_hz:.2f}",
             str(m.multiplicity), f"{m.participation:.4f}",
             "" if m.loss_factor is None else f"{m.loss_factor:.4f}",
-            ", ".join(f"{n} {family}" for family, n in m.nodal_lines),
+            " ".join(f"{n}{_FAMILY_SHORT.get(family, ' ' + family)}"
+                     for family, n in m.nodal_lines),
         )
     return table
 

@@ -77,7 +77,7 @@ EQUIPMENT_HEADER = (
 )
 EQUIPMENT = (
     ("AHU-1-SF", "fan", "Foyer, Atrium", 1450, None, None, 12, None, None, None, None, None, None, None, None, None, None, None, None, "Supply fan"),
-    ("AHU-1-EF", "fan", "Foyer, Reading Room", None, 600, 1400, 10, None, None, None, None, None, None, None, None, None, None, None, None, "Extract fan on a variable-speed drive"),
+    ("AHU-1-EF", "fan", "Reading Room", None, 900, 1400, 10, None, None, None, None, None, None, None, None, None, None, None, None, "Extract fan on a variable-speed drive"),
     ("AHU-2-SF", "fan", "Reading Room", "1740 rpm", None, None, 7, None, None, None, None, None, None, None, None, None, None, None, None, "Plug fan"),
     ("CHW-P1", "pump", "Plant Screen", 2900, None, None, None, 6, None, None, None, None, None, None, None, None, None, None, None, "Chilled-water pump"),
     ("LTHW-P1", "pump", "Café", 1450, None, None, None, 7, None, None, None, None, None, None, None, None, None, None, None, "Heating pump below the café"),

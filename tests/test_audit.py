@@ -177,3 +177,19 @@ def test_cli_modes_one_off_matches_rayleigh():
     assert modes[0]["label"] == "(1,1)"
     assert modes[0]["frequency_hz"] == pytest.approx(rayleigh_f11(), rel=1e-9)
     assert modes[0]["participation"] == pytest.approx(64 / math.pi**4)
+
+
+def test_pdf_of_a_real_audit_names_conflicts_rejections_and_cautions(tmp_path):
+    from pypdf import PdfReader
+
+    from auditor.report.pdf import write_pdf
+
+    path, _ = _workbook(tmp_path / "s.xlsx")
+    result = audit([path])
+    pdf = write_pdf(result, tmp_path / "audit.pdf")
+    text = " ".join(page.extract_text() for page in PdfReader(pdf).pages)
+    flat = " ".join(text.split())
+    assert "C-1" in flat and "AHU-1" in flat
+    assert "C-3" in flat  # the rejected row (negative width) is listed
+    for phrase in ("advisory", "trained installers", "fire", "local codes"):
+        assert phrase in flat.lower() or phrase in flat

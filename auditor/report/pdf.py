@@ -45,6 +45,7 @@ from reportlab.platypus import (
 )
 
 from auditor.model import AuditResult, Excitation, Finding, Panel, PanelResult
+from auditor.remedy import SAFETY_NOTE
 from auditor.report.figures import FigureStyle, interference_chart, mode_shape_drawing, shape_legend
 from auditor.report.text import (
     Block,
@@ -594,7 +595,7 @@ class _ReportBuilder:
             filename, pagesize=A4, leftMargin=MARGIN_LEFT, rightMargin=MARGIN_RIGHT,
             topMargin=MARGIN_TOP, bottomMargin=MARGIN_BOTTOM,
             title=self.t(f"{template.title}: {project.name}" if project.name else template.title),
-            author=self.t(template.firm_name or project.prepared_by),
+            author=self.t(self._firm_name()),
             subject=self.t(project.reference), creator=self.t(f"auditor {result.version}"),
         )
         frame = Frame(MARGIN_LEFT, MARGIN_BOTTOM, FRAME_WIDTH, PAGE_HEIGHT - MARGIN_TOP - MARGIN_BOTTOM,
@@ -653,13 +654,18 @@ class _ReportBuilder:
         canvas.rect(0, PAGE_HEIGHT - 9 * mm, PAGE_WIDTH, 9 * mm, stroke=0, fill=1)
         canvas.restoreState()
 
+    def _firm_name(self) -> str:
+        """The template's firm, or the schedule's "prepared by" when the template names none."""
+        return self.template.firm_name or self.result.schedule.project.prepared_by
+
     def _body_page(self, canvas: Canvas, doc: BaseDocTemplate) -> None:
         self._footer(canvas)
         canvas.saveState()
         canvas.setFillColor(self.colour["muted"])
         canvas.setFont(self.fonts.bold, 7.5)
         y = PAGE_HEIGHT - 13 * mm
-        canvas.drawString(MARGIN_LEFT, y, _clip(self.t(self.template.firm_name), self.fonts.bold, 7.5, FRAME_WIDTH / 2 - 10))
+        canvas.drawString(MARGIN_LEFT, y, _clip(self.t(self._firm_name()), self.fonts.bold, 7.5,
+                                                FRAME_WIDTH / 2 - 10))
         canvas.setFont(self.fonts.regular, 7.5)
         canvas.drawRightString(PAGE_WIDTH - MARGIN_RIGHT, y,
                                _clip(self.t(self.template.title), self.fonts.regular, 7.5, FRAME_WIDTH / 2 - 10))
@@ -675,8 +681,8 @@ class _ReportBuilder:
         out: list[Flowable] = [Spacer(1, 14 * mm)]
         if template.logo is not None:
             out += [self._logo(template.logo), Spacer(1, 8 * mm)]
-        if template.firm_name:
-            out.append(self.para(f"<b>{self.m(template.firm_name)}</b>", "body"))
+        if self._firm_name():
+            out.append(self.para(f"<b>{self.m(self._firm_name())}</b>", "body"))
         if template.firm_address:
             out.append(self.para(self.m(template.firm_address), "small"))
         out += [Spacer(1, 16 * mm), self.bookmark(template.title),
@@ -767,12 +773,20 @@ class _ReportBuilder:
         findings = sorted(
             ((i, f) for i, p in enumerate(result.panels) for f in p.findings),
             key=lambda item: (item[1].severity != "conflict", item[0], abs(item[1].separation)))
-        out.append(self.para("Conflicts and cautions", "h2"))
-        if findings:
-            out.append(self.findings_table([f for _, f in findings], with_panel=True))
+        conflicts = [f for _, f in findings if f.severity == "conflict"]
+        out.append(self.para("Conflicts and remedies", "h2"))
+        if conflicts:
+            out.append(self.findings_table(conflicts, with_panel=True))
+            out.append(self.para(self.m(SAFETY_NOTE), "small"))
         else:
-            out.append(self.para("No mode of any audited panel lies within the margins of an "
-                                 "excitation that reaches it.", "body"))
+            out.append(self.para("No mode of any audited panel lies within the conflict margin "
+                                 "of an excitation that reaches it.", "body"))
+        cautions = len(findings) - len(conflicts)
+        if cautions:
+            out.append(self.para(f"{cautions} caution{'s' if cautions != 1 else ''} (modes "
+                                 "between the conflict and caution margins, or weakly driven "
+                                 "modes inside the conflict margin) are listed on the panel "
+                                 "pages.", "body"))
         out += self.status_list()
         return out
 
@@ -790,8 +804,10 @@ class _ReportBuilder:
         for r, f in enumerate(findings, start=1):
             e = f.excitation
             band = format_band_hz(*e.band_hz) if e.band_hz else format_hz(e.frequency_hz)
-            remedy = f.remedy.text if f.remedy is not None and f.remedy.text else (
-                "none found" if f.severity == "conflict" else "-")
+            # the installers' caution is said once under the table, not in every row
+            remedy = f.remedy.text.replace(SAFETY_NOTE, "").strip() \
+                if f.remedy is not None and f.remedy.text else (
+                    "none found" if f.severity == "conflict" else "-")
             row: list[Any] = [self.cell(f.panel, w["Panel"])] if with_panel else []
             mode = f.mode.label + (" pair" if f.mode.multiplicity == 2 else "")
             row += [self.cell(mode, w["Mode"]), format_hz(f.mode.frequency_hz),
