@@ -18,7 +18,9 @@ from auditor.model import (
     AuditResult, Equipment, Excitation, Finding, Panel, PanelResult, RowProblem, Schedule,
 )
 from auditor.physics.modes import GeometryError, PanelModes, _physics_key, modes_for
-from auditor.rules import RuleSet, findings_with_remedies, load_ruleset, mode_frequency_limit
+from auditor.rules import (
+    RuleSet, findings_for_panel, findings_with_remedies, load_ruleset, mode_frequency_limit,
+)
 from auditor.schedule import read_schedule
 
 Progress = Callable[[int, int], None]
@@ -100,8 +102,7 @@ def audit_schedule(
         if error is not None:
             problems.append(_geometry_problem(panel, error))
         else:
-            findings = tuple(dataclasses.replace(f, panel=panel.panel) for f in findings) \
-                if findings and findings[0].panel != panel.panel else findings
+            findings = findings_for_panel(findings, panel.panel)
             shapes = _shapes(panel_modes, findings) if with_shapes else ()
             notes = panel_modes.notes + (
                 ("Tension fitted to the site tap test.",) if panel is not scheduled else ())

@@ -748,6 +748,23 @@ def _fast_finding_is_safe() -> bool:
 _finding = _finding_by_dict if _fast_finding_is_safe() else _finding_by_constructor
 
 
+def findings_for_panel(findings: Sequence[Finding], panel_id: str) -> tuple[Finding, ...]:
+    """The same findings named for another panel of the same type (shared solves)."""
+    if not findings or findings[0].panel == panel_id:
+        return tuple(findings)
+    if _finding is _finding_by_constructor:
+        import dataclasses
+        return tuple(dataclasses.replace(f, panel=panel_id) for f in findings)
+    out = []
+    for f in findings:
+        g = object.__new__(Finding)
+        fields = dict(f.__dict__)
+        fields["panel"] = panel_id
+        object.__setattr__(g, "__dict__", fields)
+        out.append(g)
+    return tuple(out)
+
+
 def evaluate_panel(panel: Panel, modes: Sequence[Mode], excitations: Any,
                    ruleset: RuleSet) -> tuple[Finding, ...]:
     """Findings for one panel: every (mode, excitation) pair within the caution margin.

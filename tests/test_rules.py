@@ -12,6 +12,7 @@ import pytest
 from auditor.excitation import excitations_for
 from auditor.model import Equipment, Excitation, Mode, Panel, SourceRef
 from auditor.rules import (
+    findings_for_panel,
     ExcitationTable, RuleSetError, evaluate_panel, list_rulesets, load_ruleset,
     mode_frequency_limit, parse_ruleset, rules_dir, separation,
 )
@@ -348,3 +349,11 @@ def test_support_participation_threshold_demotes_structure_borne_pairs():
     assert [f.severity for f in evaluate_panel(where, [mode], (shaft,), demoting)] == ["caution"]
     lit = dataclasses.replace(mode, participation=64 / math.pi**4)  # (1,1): not demoted
     assert [f.severity for f in evaluate_panel(where, [lit], (shaft,), demoting)] == ["conflict"]
+
+
+def test_findings_for_panel_renames_without_changing_anything_else():
+    mode = Mode(label="(1,1)", frequency_hz=100.0, participation=0.6)
+    got = evaluate_panel(panel(), [mode], (line(101.0),), STANDARD)
+    renamed = findings_for_panel(got, "P-2")
+    assert [f.panel for f in renamed] == ["P-2"] * len(got)
+    assert [dataclasses.replace(f, panel=got[0].panel) for f in renamed] == list(got)

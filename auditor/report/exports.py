@@ -121,8 +121,17 @@ def findings_document(result: AuditResult) -> dict[str, Any]:
     }
 
 
+#: Above this many panels the JSON is written compact: the indenting encoder is pure Python
+#: and several times slower than the compact one (50 s against a few for 20,000 panels).
+INDENT_PANELS = 500
+
+
 def findings_json(result: AuditResult) -> str:
-    return json.dumps(findings_document(result), indent=1, ensure_ascii=False, allow_nan=False)
+    """The findings document as JSON text (indented for small projects, compact for large)."""
+    doc = findings_document(result)
+    if len(result.panels) <= INDENT_PANELS:
+        return json.dumps(doc, indent=1, ensure_ascii=False, allow_nan=False)
+    return json.dumps(doc, ensure_ascii=False, allow_nan=False, separators=(",", ":"))
 
 
 def write_json(result: AuditResult, path: str | Path) -> Path:
