@@ -79,9 +79,11 @@ class PolygonRegion:
     area: float = 0.0
 
     def contains(self, points: np.ndarray) -> np.ndarray:
-        inside = _inside_polygon(points, np.asarray(self.outline, float))
+        from auditor.physics.geometry import points_in_polygon
+
+        inside = points_in_polygon(points, np.asarray(self.outline, float))
         for hole in self.holes:
-            inside &= ~_inside_polygon(points, np.asarray(hole, float))
+            inside &= ~points_in_polygon(points, np.asarray(hole, float))
         return inside
 
     def bounds(self) -> tuple[float, float, float, float]:
@@ -125,13 +127,3 @@ class ModalBasis:
     def __len__(self) -> int:
         return len(self.frequencies_hz)
 
-
-def _inside_polygon(points: np.ndarray, vertices: np.ndarray) -> np.ndarray:
-    """Even-odd rule, vectorised over points; ``vertices`` (V, 2) without repeating the first."""
-    x, y = points[:, 0][:, None], points[:, 1][:, None]
-    x0, y0 = vertices[:, 0][None, :], vertices[:, 1][None, :]
-    x1, y1 = np.roll(vertices[:, 0], -1)[None, :], np.roll(vertices[:, 1], -1)[None, :]
-    crosses = (y0 > y) != (y1 > y)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        x_at = x0 + (y - y0) * (x1 - x0) / (y1 - y0)
-    return (np.count_nonzero(crosses & (x < x_at), axis=1) % 2) == 1

@@ -104,6 +104,7 @@ import numpy as np
 from scipy import linalg, special
 from scipy.spatial import Delaunay, cKDTree
 
+from auditor.physics import arguments
 from auditor.physics.basis import CircleRegion, ModalBasis, PolygonRegion, RectangleRegion
 from auditor.physics.materials import structural_loss_factor
 
@@ -134,6 +135,18 @@ _LABEL = re.compile(r"^\((\d+),(\d+)\)$")
 
 class LoadingInputError(ValueError):
     """A loading input a user can get wrong (the message says which and why)."""
+
+
+def _finite(value, name: str, unit: str) -> float:
+    return arguments.finite(value, name, unit, LoadingInputError)
+
+
+def _positive(value, name: str, unit: str) -> float:
+    return arguments.positive(value, name, unit, LoadingInputError)
+
+
+def _non_negative(value, name: str, unit: str) -> float:
+    return arguments.non_negative(value, name, unit, LoadingInputError)
 
 
 # ============================================================================================
@@ -1129,34 +1142,6 @@ def cavity_dynamic_mass(basis: ModalBasis, depth: float, frequency_hz: float, *,
     s, mu = _cavity_split(cavity, 2 * np.pi * f / c, rho, c)
     L = cavity.coupling
     return (L * s) @ L.T, (L * mu) @ L.T
-
-
-# ============================================================================================
-# Helpers for user input
-# ============================================================================================
-
-def _finite(value, name: str, unit: str) -> float:
-    try:
-        number = float(value)
-    except (TypeError, ValueError):
-        raise LoadingInputError(f"{name} must be a number in {unit}, got {value!r}") from None
-    if not math.isfinite(number):
-        raise LoadingInputError(f"{name} must be a finite number in {unit}, got {value!r}")
-    return number
-
-
-def _positive(value, name: str, unit: str) -> float:
-    number = _finite(value, name, unit)
-    if number <= 0.0:
-        raise LoadingInputError(f"{name} must be greater than zero, got {number:g} {unit}")
-    return number
-
-
-def _non_negative(value, name: str, unit: str) -> float:
-    number = _finite(value, name, unit)
-    if number < 0.0:
-        raise LoadingInputError(f"{name} must not be negative, got {number:g} {unit}")
-    return number
 
 
 def mass_air_mass_frequency(areal_density: float, cavity_depth: float, *,

@@ -45,6 +45,9 @@ from functools import partial
 import numpy as np
 from scipy import special
 
+from auditor.physics.arguments import finite as _finite
+from auditor.physics.arguments import non_negative as _non_negative
+from auditor.physics.arguments import positive as _positive
 from auditor.physics.basis import CircleRegion, ModalBasis, RectangleRegion
 
 __all__ = [
@@ -76,29 +79,6 @@ _TIE_TOLERANCE = 8 * np.finfo(float).eps
 # --------------------------------------------------------------------------------------------
 # Checks on user-supplied numbers (clear messages, never a traceback from deep inside numpy)
 # --------------------------------------------------------------------------------------------
-
-def _positive(value, name: str, unit: str) -> float:
-    number = _finite(value, name, unit)
-    if number <= 0.0:
-        raise ValueError(f"{name} must be greater than zero, got {number:g} {unit}")
-    return number
-
-
-def _non_negative(value, name: str, unit: str) -> float:
-    number = _finite(value, name, unit)
-    if number < 0.0:
-        raise ValueError(f"{name} must not be negative, got {number:g} {unit}")
-    return number
-
-
-def _finite(value, name: str, unit: str) -> float:
-    try:
-        number = float(value)
-    except (TypeError, ValueError):
-        raise ValueError(f"{name} must be a number in {unit}, got {value!r}") from None
-    if not math.isfinite(number):
-        raise ValueError(f"{name} must be a finite number in {unit}, got {number!r}")
-    return number
 
 
 def _frequency_limit(fmax, max_modes) -> tuple[float, int | None]:
