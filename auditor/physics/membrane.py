@@ -39,6 +39,7 @@ References
 from __future__ import annotations
 
 import math
+from functools import lru_cache
 from dataclasses import dataclass
 from functools import partial
 
@@ -487,6 +488,39 @@ _ZERO_SEARCH_STEP = 2.0
 
 
 def bessel_zeros_below(x_max):
+    """Every positive zero ``j_{m,n} ≤ x_max`` of the Bessel functions J_m, m = 0, 1, 2, ...
+
+    The zeros below the next power of two above ``x_max`` are computed once and kept (each is
+    refined to machine precision on its own, so the bound does not change them); this
+    returns those up to ``x_max``. See ``_bessel_zeros_below`` for the method.
+
+    Parameters
+    ----------
+    x_max : float  [-]
+
+    Returns
+    -------
+    order, rank : ndarray of int (k,)  [-]
+        m and n of each zero, sorted by m, then n.
+    zero : ndarray of float (k,)  [-]
+        j_{m,n}.
+    """
+    x_max = float(x_max)
+    if not x_max > 0.0:
+        empty_int = np.empty(0, dtype=np.int64)
+        return empty_int, empty_int, np.empty(0)
+    bound = 2.0 ** math.ceil(math.log2(max(x_max, 1.0)))
+    order, rank, zero = _bessel_zeros_below_cached(bound)
+    keep = zero <= x_max
+    return order[keep], rank[keep], zero[keep]
+
+
+@lru_cache(maxsize=32)
+def _bessel_zeros_below_cached(bound: float):
+    return _bessel_zeros_below(bound)
+
+
+def _bessel_zeros_below(x_max):
     """Every positive zero ``j_{m,n} ≤ x_max`` of the Bessel functions J_m, m = 0, 1, 2, ...
 
     Vectorised over all orders and zeros at once: J_m is sampled on a grid starting at
