@@ -134,18 +134,34 @@ def _solve(panel: Panel, excitations: tuple[Excitation, ...], fmax: float, rules
         panel_modes = modes_for(panel, fmax, max_modes=ruleset.max_modes,
                                 air_density=air_density, speed_of_sound=speed_of_sound)
     except GeometryError as exc:
-        return None, (), str(exc)
+        return None, (), ("geometry", str(exc))
+    except ValueError as exc:  # a value the physics cannot take (the message says which)
+        return None, (), ("value", str(exc))
     findings = findings_with_remedies(panel, panel_modes.modes, excitations, ruleset, modes_of)
     return panel_modes, tuple(findings), None
 
 
-def _geometry_problem(panel: Panel, message: str) -> RowProblem:
-    column = "outline" if panel.shape == "polygon" else "cut-outs"
+def _geometry_problem(panel: Panel, error: tuple[str, str]) -> RowProblem:
+    """A panel the physics could not solve: a rejected row, never a traceback."""
+    kind, message = error
+    if kind == "geometry":
+        column = "outline" if panel.shape == "polygon" else "cut-outs"
+    else:
+        column = ""
     return RowProblem(
         file=panel.source.file, sheet=panel.source.sheet, row=panel.source.row,
         column=column, message=f"panel {panel.panel}: {message}; not audited",
-        severity="error", text=dict(panel.entered).get(column, ""), record=panel.panel,
+        severity="error", text=_typed(panel, column), record=panel.panel,
     )
+
+
+def _typed(panel: Panel, column: str) -> str:
+    """The cell text the user typed under ``column`` (headers carry units: "Outline (mm)")."""
+    key = column.replace("-", "").casefold()
+    for header, text in panel.entered:
+        if key and header.replace("-", "").casefold().startswith(key):
+            return text
+    return ""
 
 
 def _shapes(panel_modes: PanelModes, findings: tuple[Finding, ...]):

@@ -193,3 +193,19 @@ def test_pdf_of_a_real_audit_names_conflicts_rejections_and_cautions(tmp_path):
     assert "C-3" in flat  # the rejected row (negative width) is listed
     for phrase in ("advisory", "trained installers", "fire", "local codes"):
         assert phrase in flat.lower() or phrase in flat
+
+
+def test_a_panel_the_physics_cannot_mesh_is_listed_and_the_rest_audited(tmp_path):
+    # Two cut-outs that overlap: the reader passes them, the finite-element geometry check
+    # (auditor.physics.geometry) rejects the panel; it must be listed, not crash the audit.
+    path, _ = _workbook(tmp_path / "s.xlsx")
+    wb = openpyxl.load_workbook(path)
+    ws = wb["Panels"]
+    ws.cell(row=2, column=10, value="Cut-outs (mm)")
+    ws.cell(row=4, column=10, value="circle 600,450,300 | circle 700,450,300")
+    wb.save(path)
+    result = audit([path])
+    assert {p.panel.panel for p in result.panels} == {"C-1"}
+    (problem,) = [q for q in result.problems if q.record == "C-2"]
+    assert problem.severity == "error" and problem.row == 4 and problem.column == "cut-outs"
+    assert "overlap" in problem.message and problem.text.startswith("circle 600")
