@@ -214,10 +214,11 @@ _FAMILY_SHORT = {"parallel to length": "∥L", "parallel to width": "∥W",
                  "diameters": " diam.", "circles": " circ.", "nodal domains": " domains"}
 
 
-def _mode_table(panel_id: str, modes, loading: str, notes):
+def _mode_table(panel_id: str, modes, loading: str):
+    from rich.markup import escape
     from rich.table import Table
 
-    table = Table(title=f"Panel {panel_id}", title_justify="left",
+    table = Table(title=f"Panel {escape(panel_id)}", title_justify="left",
                   caption=loading + "  Nodal lines: ∥L parallel to the length, ∥W to the "
                   "width.", caption_justify="left")
     for head in ("mode", "f [Hz]", "in vacuo [Hz]", "×", "participation", "loss factor",
@@ -341,7 +342,7 @@ def modes(
         typer.echo(json.dumps(doc, indent=1, ensure_ascii=False))
     else:
         for p, r in out:
-            console.print(_mode_table(p.panel, r.modes, r.loading, r.notes))
+            console.print(_mode_table(p.panel, r.modes, r.loading))
             for note in r.notes:
                 console.print(f"  note: {note}")
             for k, m in enumerate(r.modes[:max(0, sketch)]):
@@ -422,6 +423,7 @@ def _run_audit(schedule, rules, out, as_json, fail_on, formats, detail, calibrat
 
 
 def _print_summary(console, result) -> None:
+    from rich.markup import escape
     from rich.table import Table
     from rich.text import Text
 
@@ -444,7 +446,7 @@ def _print_summary(console, result) -> None:
     _print_problems(console, result.problems)
     console.print(
         f"{s['panels']} panels, {s['equipment']} equipment items, rule set "
-        f"'{result.ruleset.name}': [bold red]{s['conflicts']} conflicts[/], "
+        f"'{escape(result.ruleset.name)}': [bold red]{s['conflicts']} conflicts[/], "
         f"[yellow]{s['cautions']} cautions[/], {s['panels_clear']} panels clear; "
         f"{s['rejected_rows']} rejected rows, {s['warnings']} warnings.")
 
