@@ -17,7 +17,7 @@ from auditor.excitation import excitations_for_schedule
 from auditor.model import (
     AuditResult, Equipment, Excitation, Finding, Panel, PanelResult, RowProblem, Schedule,
 )
-from auditor.physics.modes import GeometryError, PanelModes, _physics_key, modes_for
+from auditor.physics.modes import GeometryError, PanelModes, physics_key, modes_for
 from auditor.rules import (
     RuleSet, findings_for_panel, findings_with_remedies, load_ruleset, mode_frequency_limit,
 )
@@ -95,12 +95,12 @@ def audit_schedule(
             fmax = mode_frequency_limit(ruleset, excitations) or (ruleset.fmax_hz or 500.0)
             by_zone[zone] = (excitations, fmax)
         excitations, fmax = by_zone[zone]
-        key = (_physics_key(panel), panel.max_tension, zone)
+        key = (physics_key(panel), panel.max_tension, zone)
         if key not in cache:
             cache[key] = _solve(panel, excitations, fmax, ruleset, air_density, speed_of_sound)
         panel_modes, findings, error = cache[key]
         if error is not None:
-            problems.append(_geometry_problem(panel, error))
+            problems.append(unsolvable_problem(panel, error))
         else:
             findings = findings_for_panel(findings, panel.panel)
             shapes = _shapes(panel_modes, findings) if with_shapes else ()
@@ -127,32 +127,43 @@ def audit_schedule(
 
 def _solve(panel: Panel, excitations: tuple[Excitation, ...], fmax: float, ruleset: RuleSet,
            air_density: float, speed_of_sound: float):
-    def modes_of(candidate: Panel):
+    def solve(candidate: Panel) -> PanelModes:
         return modes_for(candidate, fmax, max_modes=ruleset.max_modes,
-                         air_density=air_density, speed_of_sound=speed_of_sound).modes
+                         air_density=air_density, speed_of_sound=speed_of_sound)
+
     try:
-        panel_modes = modes_for(panel, fmax, max_modes=ruleset.max_modes,
-                                air_density=air_density, speed_of_sound=speed_of_sound)
-    except GeometryError as exc:
-        return None, (), ("geometry", str(exc))
-    except ValueError as exc:  # a value the physics cannot take (the message says which)
-        return None, (), ("value", str(exc))
-    findings = findings_with_remedies(panel, panel_modes.modes, excitations, ruleset, modes_of)
+        panel_modes = solve(panel)
+    except ValueError as exc:  # GeometryError included: the message says what is wrong
+        return None, (), exc
+    findings = findings_with_remedies(panel, panel_modes.modes, excitations, ruleset,
+                                      lambda candidate: solve(candidate).modes)
     return panel_modes, tuple(findings), None
 
 
-def _geometry_problem(panel: Panel, error: tuple[str, str]) -> RowProblem:
-    """A panel the physics could not solve: a rejected row, never a traceback."""
-    kind, message = error
-    if kind == "geometry":
+def unsolvable_problem(panel: Panel, error: ValueError) -> RowProblem:
+    """A panel the physics could not solve, as a rejected row (never a traceback).
+
+    A ``GeometryError`` names the outline or cut-outs column; any other ``ValueError`` (a
+    value the physics cannot take) names no column.
+    """
+    if isinstance(error, GeometryError):
         column = "outline" if panel.shape == "polygon" else "cut-outs"
     else:
         column = ""
     return RowProblem(
         file=panel.source.file, sheet=panel.source.sheet, row=panel.source.row,
-        column=column, message=f"panel {panel.panel}: {message}; not audited",
+        column=column, message=f"panel {panel.panel}: {error}; not audited",
         severity="error", text=_typed(panel, column), record=panel.panel,
     )
+
+
+def calibration_modes(project) -> Callable[[Panel], tuple]:
+    """The full model for fitting tap tests: a panel's modes up to ``CALIBRATION_FMAX_HZ``."""
+    def modes_of(panel: Panel):
+        return modes_for(panel, CALIBRATION_FMAX_HZ, max_modes=CALIBRATION_MAX_MODES,
+                         air_density=project.air_density,
+                         speed_of_sound=project.speed_of_sound).modes
+    return modes_of
 
 
 def _typed(panel: Panel, column: str) -> str:
@@ -195,12 +206,8 @@ def audit(
     if calibrated:
         from auditor.calibrate import apply_calibration, calibrate_schedule
 
-        def modes_of(panel: Panel):
-            return modes_for(panel, CALIBRATION_FMAX_HZ, max_modes=CALIBRATION_MAX_MODES,
-                             air_density=schedule.project.air_density,
-                             speed_of_sound=schedule.project.speed_of_sound).modes
-
-        calibrations, cal_problems = calibrate_schedule(schedule, modes_of)
+        calibrations, cal_problems = calibrate_schedule(schedule,
+                                                        calibration_modes(schedule.project))
         by_id = {p.panel: p for p in schedule.panels}
         for c in calibrations:
             fitted.append(apply_calibration(by_id[c.panel], c))

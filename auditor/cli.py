@@ -295,7 +295,8 @@ def modes(
 
     from rich.console import Console
 
-    from auditor.physics.modes import GeometryError, modes_for
+    from auditor.audit import unsolvable_problem
+    from auditor.physics.modes import modes_for
     from auditor.report.exports import panel_modes_dict
     from auditor.report.sketch import sketch_mode
     from auditor.schedule import read_rows, read_schedule
@@ -331,8 +332,8 @@ def modes(
                 result = modes_for(p, fmax, max_modes=max_modes,
                                    air_density=read.project.air_density,
                                    speed_of_sound=read.project.speed_of_sound)
-            except (GeometryError, ValueError) as exc:
-                problems.append(_panel_problem(p, str(exc)))
+            except ValueError as exc:  # GeometryError included
+                problems.append(unsolvable_problem(p, exc))
                 continue
             out.append((p, result))
             update(done, len(panels))
@@ -351,14 +352,6 @@ def modes(
                     console.print("    " + line, markup=False, highlight=False)
         _print_problems(console, problems)
     raise typer.Exit(0 if out or not problems else 2)
-
-
-def _panel_problem(p, message: str):
-    from auditor.model import RowProblem
-
-    return RowProblem(file=p.source.file, sheet=p.source.sheet, row=p.source.row,
-                      column="outline" if p.shape == "polygon" else "", message=message,
-                      severity="error", record=p.panel)
 
 
 _FORMATS = ("pdf", "json", "csv", "xlsx")
@@ -558,9 +551,8 @@ def calibrate_command(
     from rich.table import Table
     from rich.text import Text
 
-    from auditor.audit import CALIBRATION_FMAX_HZ, CALIBRATION_MAX_MODES
+    from auditor.audit import calibration_modes
     from auditor.calibrate import calibrate_schedule, calibration_to_dict
-    from auditor.physics.modes import modes_for
     from auditor.schedule import read_schedule
 
     console = Console(stderr=as_json)
@@ -574,14 +566,9 @@ def calibrate_command(
         _print_problems(console, read.problems)
         raise typer.Exit(2)
 
-    def modes_of(p):
-        return modes_for(p, CALIBRATION_FMAX_HZ, max_modes=CALIBRATION_MAX_MODES,
-                         air_density=read.project.air_density,
-                         speed_of_sound=read.project.speed_of_sound).modes
-
     with console.status("Fitting tap tests"):
-        calibrations, problems = calibrate_schedule(read, modes_of, panel_id=panel,
-                                                    fit=fits[fit])
+        calibrations, problems = calibrate_schedule(read, calibration_modes(read.project),
+                                                    panel_id=panel, fit=fits[fit])
     problems = list(read.problems) + list(problems)
     if as_json:
         typer.echo(json.dumps({"panels": [calibration_to_dict(c) for c in calibrations],

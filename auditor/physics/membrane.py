@@ -46,7 +46,6 @@ from functools import partial
 import numpy as np
 from scipy import special
 
-from auditor.physics.arguments import finite as _finite
 from auditor.physics.arguments import non_negative as _non_negative
 from auditor.physics.arguments import positive as _positive
 from auditor.physics.basis import CircleRegion, ModalBasis, RectangleRegion

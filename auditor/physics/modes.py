@@ -17,7 +17,7 @@ from typing import Callable
 
 import numpy as np
 
-from auditor.model import CircleCutout, Mode, Panel, PolygonCutout, ShapeGrid
+from auditor.model import CircleCutout, Mode, Panel, ShapeGrid
 from auditor.physics import fem, fluid, membrane
 from auditor.physics.basis import ModalBasis
 from auditor.physics.geometry import outline_problems, signed_area
@@ -183,7 +183,7 @@ def _scaled_polygon_basis(outline, cutouts, tx: float, ty: float, rho: float, co
     return dataclasses.replace(unit, frequencies_hz=unit.frequencies_hz * np.sqrt(tx / rho))
 
 
-def _physics_key(panel: Panel) -> Panel:
+def physics_key(panel: Panel) -> Panel:
     """The panel with everything that does not change its modes blanked out."""
     return dataclasses.replace(
         panel, panel="", zone="", source=None, entered=(), tap_test=None, max_tension=None,
@@ -225,7 +225,7 @@ def modes_for(
     ----------
     See ``auditor.physics.membrane``, ``auditor.physics.fem`` and ``auditor.physics.fluid``.
     """
-    return _modes_cached(_physics_key(panel), float(fmax), int(max_modes),
+    return _modes_cached(physics_key(panel), float(fmax), int(max_modes),
                          float(air_density), float(speed_of_sound))
 
 

@@ -147,8 +147,8 @@ CSV_COLUMNS = (
 )
 
 
-def _finding_rows(result: AuditResult) -> Iterable[list[Any]]:
-    for p in result.panels:
+def _finding_rows(panels: Iterable[PanelResult]) -> Iterable[list[Any]]:
+    for p in panels:
         for f in p.findings:
             e = f.excitation
             r = f.remedy
@@ -178,7 +178,7 @@ def findings_csv(result: AuditResult) -> str:
     buf = io.StringIO()
     writer = csv.writer(buf, lineterminator="\n")
     writer.writerow(CSV_COLUMNS)
-    for row in _finding_rows(result):
+    for row in _finding_rows(result.panels):
         writer.writerow([neutralise(v) for v in row])
     for row in _problem_rows(result.problems):
         writer.writerow([neutralise(v) for v in row])
@@ -261,9 +261,7 @@ def audited_workbook_bytes(result: AuditResult, source_file: str) -> bytes:
         ws.freeze_panes = "A2"
 
     mine = [p for p in result.panels if p.panel.source.file == source_file]
-    sub = AuditResult(result.schedule, tuple(mine), result.excitations, result.ruleset,
-                      result.problems, result.version, result.created, result.calibrated)
-    add_sheet("Findings", CSV_COLUMNS, _finding_rows(sub))
+    add_sheet("Findings", CSV_COLUMNS, _finding_rows(mine))
     add_sheet("Rejected rows", CSV_COLUMNS,
               _problem_rows(q for q in result.problems if q.file == source_file))
     buf = io.BytesIO()

@@ -136,10 +136,9 @@ def bundled_template_dir() -> Path:
     Found relative to the imported ``auditor`` package, so it works from a source checkout
     and from an editable install alike.
     """
-    import auditor
+    from auditor.resources import project_home
 
-    package = Path(auditor.__file__).resolve().parent
-    candidates = [package.parent / "templates", package / "templates"]
+    candidates = [project_home() / "templates", Path(__file__).resolve().parents[1] / "templates"]
     for folder in candidates:
         if (folder / "report.toml").is_file():
             return folder
