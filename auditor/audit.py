@@ -13,11 +13,12 @@ from collections.abc import Callable, Sequence
 from pathlib import Path
 
 from auditor import __version__
+from auditor._gc import collector_paused
 from auditor.excitation import excitations_for_schedule
 from auditor.model import (
     AuditResult, Equipment, Excitation, Finding, Panel, PanelResult, RowProblem, Schedule,
 )
-from auditor.physics.modes import GeometryError, PanelModes, physics_key, modes_for
+from auditor.physics.modes import GeometryError, PanelModes, modes_for, physics_signature
 from auditor.rules import (
     RuleSet, findings_for_panel, findings_with_remedies, load_ruleset, mode_frequency_limit,
 )
@@ -86,33 +87,35 @@ def audit_schedule(
     results: list[PanelResult] = []
     total = len(schedule.panels)
     by_zone: dict[str, tuple[tuple[Excitation, ...], float]] = {}
-    for done, scheduled in enumerate(schedule.panels, start=1):
-        panel = replaced.get(scheduled.panel, scheduled)
-        zone = panel.zone.strip().casefold() if ruleset.use_zones else ""
-        if zone not in by_zone:
-            excitations = reaching(panel, schedule.equipment, table, ruleset)
-            # A panel no equipment reaches still has its modes listed, up to the fixed limit.
-            fmax = mode_frequency_limit(ruleset, excitations) or (ruleset.fmax_hz or 500.0)
-            by_zone[zone] = (excitations, fmax)
-        excitations, fmax = by_zone[zone]
-        key = (physics_key(panel), panel.max_tension, zone)
-        if key not in cache:
-            cache[key] = _solve(panel, excitations, fmax, ruleset, air_density, speed_of_sound)
-        panel_modes, findings, error = cache[key]
-        if error is not None:
-            problems.append(unsolvable_problem(panel, error))
-        else:
-            findings = findings_for_panel(findings, panel.panel)
-            shapes = _shapes(panel_modes, findings) if with_shapes else ()
-            notes = panel_modes.notes + (
-                ("Tension fitted to the site tap test.",) if panel is not scheduled else ())
-            results.append(PanelResult(
-                panel=panel, modes=panel_modes.modes, findings=findings,
-                loading=panel_modes.loading, notes=notes, shapes=shapes,
-                measured_peaks_hz=tuple(peaks.get(panel.panel, ())),
-            ))
-        if progress is not None:
-            progress(done, total)
+    # Findings are many small acyclic records (see auditor._gc).
+    with collector_paused():
+        for done, scheduled in enumerate(schedule.panels, start=1):
+            panel = replaced.get(scheduled.panel, scheduled)
+            zone = panel.zone.strip().casefold() if ruleset.use_zones else ""
+            if zone not in by_zone:
+                excitations = reaching(panel, schedule.equipment, table, ruleset)
+                # A panel no equipment reaches still has its modes listed, up to the fixed limit.
+                fmax = mode_frequency_limit(ruleset, excitations) or (ruleset.fmax_hz or 500.0)
+                by_zone[zone] = (excitations, fmax)
+            excitations, fmax = by_zone[zone]
+            key = (physics_signature(panel), panel.max_tension, zone)
+            if key not in cache:
+                cache[key] = _solve(panel, excitations, fmax, ruleset, air_density, speed_of_sound)
+            panel_modes, findings, error = cache[key]
+            if error is not None:
+                problems.append(unsolvable_problem(panel, error))
+            else:
+                findings = findings_for_panel(findings, panel.panel)
+                shapes = _shapes(panel_modes, findings) if with_shapes else ()
+                notes = panel_modes.notes + (
+                    ("Tension fitted to the site tap test.",) if panel is not scheduled else ())
+                results.append(PanelResult(
+                    panel=panel, modes=panel_modes.modes, findings=findings,
+                    loading=panel_modes.loading, notes=notes, shapes=shapes,
+                    measured_peaks_hz=tuple(peaks.get(panel.panel, ())),
+                ))
+            if progress is not None:
+                progress(done, total)
     return AuditResult(
         schedule=schedule,
         panels=tuple(results),

@@ -435,7 +435,10 @@ def _print_summary(console, result) -> None:
                       f"{100 * f.separation:+.1f} %",
                       Text(f.remedy.text if f.remedy else ""))
     if s["conflicts"]:
+        from auditor.remedy import SAFETY_NOTE
+
         console.print(table)
+        console.print(Text(SAFETY_NOTE))
     _print_problems(console, result.problems)
     console.print(
         f"{s['panels']} panels, {s['equipment']} equipment items, rule set "

@@ -340,13 +340,16 @@ class Remedy:
     ``tension`` [N/m] is the new tension along x (both tensions scaled together for an
     orthotropic panel), None when no tension within range clears it; ``bays`` is the number
     of equal bays (intermediate supports across the longer side) that clears it, None when
-    not needed or not possible; ``text`` says it in words.
+    not needed or not possible; ``text`` says it in words. ``work`` is True when the remedy
+    changes a tension or adds supports: work on a stretched system, to which the safety note
+    (``auditor.remedy.SAFETY_NOTE``) applies.
     """
 
     tension: float | None
     bays: int | None
     text: str
     tension_y: float | None = None
+    work: bool = False
 
 
 @dataclass(frozen=True)
@@ -426,14 +429,20 @@ class AuditResult:
         return tuple(f for p in self.panels for f in p.findings)
 
     def summary(self) -> dict[str, int]:
-        fs = self.findings
+        conflicts = cautions = with_conflicts = clear = 0
+        for p in self.panels:
+            c = sum(1 for f in p.findings if f.severity == "conflict")
+            conflicts += c
+            cautions += sum(1 for f in p.findings if f.severity == "caution")
+            with_conflicts += c > 0
+            clear += not p.findings
         return {
             "panels": len(self.schedule.panels),
             "equipment": len(self.schedule.equipment),
             "rejected_rows": sum(1 for p in self.problems if p.severity == "error"),
             "warnings": sum(1 for p in self.problems if p.severity == "warning"),
-            "conflicts": sum(1 for f in fs if f.severity == "conflict"),
-            "cautions": sum(1 for f in fs if f.severity == "caution"),
-            "panels_with_conflicts": sum(1 for p in self.panels if p.status == "conflict"),
-            "panels_clear": sum(1 for p in self.panels if p.status == "clear"),
+            "conflicts": conflicts,
+            "cautions": cautions,
+            "panels_with_conflicts": with_conflicts,
+            "panels_clear": clear,
         }

@@ -756,11 +756,12 @@ def findings_for_panel(findings: Sequence[Finding], panel_id: str) -> tuple[Find
         import dataclasses
         return tuple(dataclasses.replace(f, panel=panel_id) for f in findings)
     out = []
+    new = object.__new__
     for f in findings:
-        g = object.__new__(Finding)
-        fields = dict(f.__dict__)
+        g = new(Finding)
+        fields = g.__dict__   # filled in place: the same record dataclasses.replace makes
+        fields.update(f.__dict__)
         fields["panel"] = panel_id
-        object.__setattr__(g, "__dict__", fields)
         out.append(g)
     return tuple(out)
 

@@ -209,3 +209,37 @@ def test_a_panel_the_physics_cannot_mesh_is_listed_and_the_rest_audited(tmp_path
     (problem,) = [q for q in result.problems if q.record == "C-2"]
     assert problem.severity == "error" and problem.row == 4 and problem.column == "cut-outs"
     assert "overlap" in problem.message and problem.text.startswith("circle 600")
+
+
+def test_compact_json_is_the_findings_document_of_shared_types():
+    """The compact writer reuses the text of findings shared by panels of one type; it must
+    give exactly the document the standard library's encoder gives (Python ``json``)."""
+    from auditor.model import Equipment, Panel, Project, Schedule, SourceRef
+    from auditor.report.exports import compact_findings_json
+
+    panels = tuple(
+        Panel(panel=f"C-{i}°", source=SourceRef("s.xlsx", "Panels", i + 2),
+              zone=("Office", "Plant")[i % 2], width=(1.2, 0.9, 1.5)[i % 3],
+              length=0.9, areal_density=0.25, tension_x=800.0, tension_y=800.0,
+              max_tension=1600.0, room_side="none", plenum_side="none")
+        for i in range(12))
+    equipment = (
+        Equipment("AHU-1", SourceRef("s.xlsx", "Equipment", 2), "fan", zones=("Office",),
+                  rpm=1450.0, blades=7),
+        Equipment("TX-1", SourceRef("s.xlsx", "Equipment", 3), "transformer",
+                  zones=("Plant",), line_frequency=50.0),
+    )
+    schedule = Schedule(panels=panels, equipment=equipment, project=Project(line_frequency=50))
+    result = audit_schedule(schedule, load_ruleset("strict"), with_shapes=False)
+    assert sum(len(p.findings) for p in result.panels) > 12   # types really are shared
+    expected = json.loads(json.dumps(findings_document(result)))
+    assert json.loads(compact_findings_json(result)) == expected
+    # Remedies that are work on a stretched panel are flagged, and the document carries the
+    # installers' caution once (common practice for tensioned systems).
+    remedies = [f["remedy"] for p in expected["panels"] for f in p["findings"] if f["remedy"]]
+    assert any(r["work"] for r in remedies) and "trained installers" in expected["safety_note"]
+    # the tables, read row by row, carry it with every such remedy
+    rows = list(csv.DictReader(io.StringIO(findings_csv(result))))
+    work = [r for r in rows
+            if r["remedy"].startswith(("Raise", "Lower")) or "bays (" in r["remedy"]]
+    assert work and all("trained installers" in r["remedy"] for r in work)

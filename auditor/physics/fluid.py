@@ -296,7 +296,10 @@ def _matching_sign(reference: np.ndarray, values: np.ndarray) -> np.ndarray | No
     return np.where(plus, 1.0, -1.0)
 
 
-def _parse_labels(labels) -> tuple[np.ndarray, np.ndarray] | None:
+@lru_cache(maxsize=256)
+def _parse_labels(labels: tuple) -> tuple[np.ndarray, np.ndarray] | None:
+    """The two indices of labels "(m,n)" as read-only arrays; None when any label differs
+    (cached: the bases of one outline at nearby tensions share their labels)."""
     first, second = [], []
     for label in labels:
         match = _LABEL.match(str(label).replace(" ", ""))
@@ -304,14 +307,17 @@ def _parse_labels(labels) -> tuple[np.ndarray, np.ndarray] | None:
             return None
         first.append(int(match.group(1)))
         second.append(int(match.group(2)))
-    return np.array(first, dtype=int), np.array(second, dtype=int)
+    out = np.array(first, dtype=int), np.array(second, dtype=int)
+    for array in out:
+        array.setflags(write=False)
+    return out
 
 
 @lru_cache(maxsize=64)
 def _recognise(basis: ModalBasis):
     """The quadrature family for a basis: analytic when its shapes are the known ones."""
     region = basis.region
-    parsed = _parse_labels(basis.labels)
+    parsed = _parse_labels(tuple(basis.labels))
     if parsed is not None and len(basis) > 0:
         first, second = parsed
         probe = _sample_points(region)
@@ -512,7 +518,34 @@ def _correlation_coefficients(count: int):
     return alpha, beta, delta
 
 
-@lru_cache(maxsize=128)
+#: Rectangle tables kept (by aspect ratio), and the memory they may take together [bytes].
+_TABLES: dict[float, np.ndarray] = {}
+_TABLE_BUDGET = 256 * 2**20
+
+
+def _rectangle_table_covering(aspect: float, m_count: int, n_count: int) -> np.ndarray:
+    """:func:`_rectangle_table` for at least ``m_count`` × ``n_count`` half-wave numbers.
+
+    One table per aspect ratio is kept and grown when a basis needs more: the entry for given
+    (m, n, m', n') does not depend on the size of the table, and a larger one is integrated
+    with at least the Gauss order the smaller needs (entries of tables of different sizes
+    agree to about 1e-10 relative). Every tension of one panel outline (the remedy scan)
+    shares its table.
+    """
+    table = _TABLES.pop(aspect, None)
+    if table is not None:
+        _TABLES[aspect] = table  # most recently used last
+    if table is None or table.shape[0] < m_count or table.shape[1] < n_count:
+        if table is not None:
+            m_count, n_count = max(m_count, table.shape[0]), max(n_count, table.shape[1])
+        table = _rectangle_table(aspect, m_count, n_count)
+        _TABLES.pop(aspect, None)
+        while _TABLES and sum(t.nbytes for t in _TABLES.values()) + table.nbytes > _TABLE_BUDGET:
+            _TABLES.pop(next(iter(_TABLES)))
+        _TABLES[aspect] = table
+    return table
+
+
 def _rectangle_table(aspect: float, m_count: int, n_count: int) -> np.ndarray:
     """Normalised added mass of the unit-width rectangle, T[m−1, n−1, m'−1, n'−1].
 
@@ -521,24 +554,25 @@ def _rectangle_table(aspect: float, m_count: int, n_count: int) -> np.ndarray:
     singularity at the origin removed by a Duffy transformation of each half of the square.
     """
     order = int(1.25 * max(m_count, n_count)) + 18
-    nodes, weights = np.polynomial.legendre.leggauss(order)
-    nodes, weights = 0.5 * (nodes + 1.0), 0.5 * weights
+    nodes, weights = _gauss_unit(order)
     sigma, tau = np.meshgrid(nodes, nodes, indexing="ij")
     w2 = np.outer(weights, weights).ravel()
     sigma, tau = sigma.ravel(), tau.ravel()
     alpha = aspect
-    m = np.arange(1, m_count + 1)[:, None]
-    n = np.arange(1, n_count + 1)[:, None]
 
-    def functions(index, s):
-        return np.sin(np.pi * index * s), (1.0 - s) * np.cos(np.pi * index * s)
+    def functions(count, s):
+        sines, cosines = _harmonics(count, s)
+        return sines, (1.0 - s) * cosines
 
     # Triangle t ≤ s: s = σ, t = στ, r = σ √(1 + α²τ²), Jacobian σ; triangle s ≤ t likewise.
+    # σ takes only the ``order`` node values: its functions are evaluated there and repeated.
+    on_sigma = {count: tuple(np.repeat(v, order, axis=1) for v in functions(count, nodes))
+                for count in {m_count, n_count}}
     moments = {}
-    for s, t, w in ((sigma, sigma * tau, w2 / np.sqrt(1.0 + (alpha * tau) ** 2)),
-                    (sigma * tau, sigma, w2 / np.sqrt(tau**2 + alpha**2))):
-        fx = functions(m, s)
-        fy = functions(n, t)
+    for s, t, w in ((None, sigma * tau, w2 / np.sqrt(1.0 + (alpha * tau) ** 2)),
+                    (sigma * tau, None, w2 / np.sqrt(tau**2 + alpha**2))):
+        fx = on_sigma[m_count] if s is None else functions(m_count, s)
+        fy = on_sigma[n_count] if t is None else functions(n_count, t)
         for i in range(2):
             for j in range(2):
                 value = (fx[i] * w) @ fy[j].T
@@ -549,16 +583,49 @@ def _rectangle_table(aspect: float, m_count: int, n_count: int) -> np.ndarray:
     x_terms = ((ax, 0, "m"), (bx, 0, "mp"), (dx, 1, "m"))
     y_terms = ((ay, 0, "n"), (by, 0, "np"), (dy, 1, "n"))
     table = np.zeros((m_count, m_count, n_count, n_count))
+    diagonal = np.arange(m_count)
     for cx, fi, ix in x_terms:
+        # The y terms summed first: inner[k, n, n'], k the x index the moments carry.
+        inner = np.zeros((m_count, n_count, n_count))
         for cy, fj, iy in y_terms:
             g = moments[fi, fj]                      # (M, N): rows m-index, columns n-index
-            if ix == "m":
-                g4 = g[:, None, :, None] if iy == "n" else g[:, None, None, :]
-            else:
-                g4 = g[None, :, :, None] if iy == "n" else g[None, :, None, :]
-            table += cx[:, :, None, None] * cy[None, None, :, :] * g4
+            inner += cy[None, :, :] * (g[:, :, None] if iy == "n" else g[:, None, :])
+        if cx is dx:   # δ = identity: only m = m'
+            table[diagonal, diagonal] += inner
+        elif ix == "m":
+            table += cx[:, :, None, None] * inner[:, None, :, :]
+        else:
+            table += cx[:, :, None, None] * inner[None, :, :, :]
     table *= 4.0 * alpha**2 / (2.0 * np.pi)
     return np.ascontiguousarray(table.transpose(0, 2, 1, 3))
+
+
+@lru_cache(maxsize=64)
+def _gauss_unit(order: int) -> tuple[np.ndarray, np.ndarray]:
+    """Gauss–Legendre nodes and weights of ``order`` points on [0, 1] (cached, read-only)."""
+    nodes, weights = np.polynomial.legendre.leggauss(order)
+    nodes, weights = 0.5 * (nodes + 1.0), 0.5 * weights
+    nodes.setflags(write=False)
+    weights.setflags(write=False)
+    return nodes, weights
+
+
+def _harmonics(count: int, s: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """sin(kπs) and cos(kπs) for k = 1 … count, (count, len(s)), by the Chebyshev
+    recurrence ``u_{k+1} = 2 cos(πs) u_k − u_{k−1}`` (rounding grows about as k² ε)."""
+    sines = np.empty((count, len(s)))
+    cosines = np.empty((count, len(s)))
+    c, si = np.cos(np.pi * s), np.sin(np.pi * s)
+    two_c = 2.0 * c
+    sines[0], cosines[0] = si, c
+    if count > 1:
+        sines[1], cosines[1] = two_c * si, two_c * c - 1.0
+    for k in range(2, count):
+        np.multiply(two_c, sines[k - 1], out=sines[k])
+        sines[k] -= sines[k - 2]
+        np.multiply(two_c, cosines[k - 1], out=cosines[k])
+        cosines[k] -= cosines[k - 2]
+    return sines, cosines
 
 
 def _rounded_up(count: int) -> int:
@@ -567,7 +634,8 @@ def _rounded_up(count: int) -> int:
 
 def _rectangle_added_mass(family: _Rectangle) -> np.ndarray:
     aspect = float(f"{family.length / family.width:.12g}")
-    table = _rectangle_table(aspect, _rounded_up(int(family.m.max())), _rounded_up(int(family.n.max())))
+    table = _rectangle_table_covering(aspect, _rounded_up(int(family.m.max())),
+                                      _rounded_up(int(family.n.max())))
     i, j = family.m - 1, family.n - 1
     block = table[i[:, None], j[:, None], i[None, :], j[None, :]]
     return family.width**3 * block * np.outer(family.sign, family.sign)
@@ -1302,10 +1370,12 @@ def _frequency_independent_solution(system: _System, blocks, f_keep: float | Non
         if system.cavity is not None:
             ks, ms = system.cavity_matrices(0.0, block)
             k_b, m_b = k_b + ks, m_b + ms
-        if f_keep is None:
-            w, v = linalg.eigh(k_b, m_b)
-        else:
-            w, v = linalg.eigh(k_b, m_b, subset_by_value=(-np.inf, (2 * np.pi * f_keep) ** 2))
+        # The divide-and-conquer driver on the whole block is faster here than the subset
+        # driver on part of it (blocks of tens of modes).
+        w, v = linalg.eigh(k_b, m_b, driver="gvd", check_finite=False)
+        if f_keep is not None:
+            kept = w <= (2 * np.pi * f_keep) ** 2
+            w, v = w[kept], v[:, kept]
         full = np.zeros((n, v.shape[1]))
         full[block] = v
         values.append(w)
@@ -1552,6 +1622,7 @@ def _compressible_correction(system: _System, followed: list[_Followed]):
     unit = system.air_mass / system.air_sides
     incompressible = np.sum(shapes * (unit @ shapes), axis=0)
     sides = system.air_sides
+    previous_change = math.inf
     for _ in range(8):
         k0 = 2 * np.pi * np.maximum(f, 1e-9) / c
         with np.errstate(all="ignore"):
@@ -1562,8 +1633,16 @@ def _compressible_correction(system: _System, followed: list[_Followed]):
         f_new = np.sqrt(np.maximum(lam.real, 0.0)) / (2 * np.pi)
         change = np.max(np.abs(f_new - f) / np.maximum(f, 1e-12))
         f = f_new
-        if change < 1e-7:
-            break   # the terms at f_new differ from those used by less than 1e-7 relative
+        # The iteration contracts linearly (ratio ρ ≈ 0.02): the error left in f_new is about
+        # change·ρ/(1 − ρ), ρ estimated from the last two changes.
+        left = math.inf   # no estimate on the first pass
+        if math.isfinite(previous_change) and previous_change > 0:
+            ratio = change / previous_change
+            if ratio < 0.5:
+                left = change * ratio / (1.0 - ratio)
+        if change < 1e-7 or left < 1e-7:
+            break
+        previous_change = change
     # Loss factors add (to first order, as the trade quotes them): structural (weighted by the
     # panel's share of the stiffness) and porous flow from the eigenvalue without radiation,
     # plus the radiation loss factor.

@@ -804,9 +804,8 @@ class _ReportBuilder:
             e = f.excitation
             band = format_band_hz(*e.band_hz) if e.band_hz else format_hz(e.frequency_hz)
             # the installers' caution is said once under the table, not in every row
-            remedy = f.remedy.text.replace(SAFETY_NOTE, "").strip() \
-                if f.remedy is not None and f.remedy.text else (
-                    "none found" if f.severity == "conflict" else "-")
+            remedy = f.remedy.text if f.remedy is not None and f.remedy.text else (
+                "none found" if f.severity == "conflict" else "-")
             row: list[Any] = [self.cell(f.panel, w["Panel"])] if with_panel else []
             mode = f.mode.label + (" pair" if f.mode.multiplicity == 2 else "")
             row += [self.cell(mode, w["Mode"]), format_hz(f.mode.frequency_hz),
