@@ -48,6 +48,7 @@ the system maker's rating and local codes).
 from __future__ import annotations
 
 import math
+from collections import Counter
 from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass, replace
 
@@ -273,11 +274,11 @@ class TensionScan:
         proportional = np.ones(len(base.f), dtype=bool)
         matched: set[int] = set()
         if end != 1.0:
-            unique_far = {label: k for k, label in enumerate(far.labels)
-                          if far.labels.count(label) == 1}
+            at_base, at_far = Counter(base.labels), Counter(far.labels)
+            unique_far = {label: k for k, label in enumerate(far.labels) if at_far[label] == 1}
             for i, label in enumerate(base.labels):
                 k = unique_far.get(label)
-                if k is None or base.labels.count(label) != 1:
+                if k is None or at_base[label] != 1:
                     continue
                 slope[:2, i] = (np.array([far.f[k] ** 2, far.eta[k]]) - value[:2, i]) / (end - 1.0)
                 # Participation can change fast near a coupling with the air (a cavity): the
