@@ -96,7 +96,7 @@ from __future__ import annotations
 import math
 import re
 import warnings
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from functools import lru_cache
 from typing import Callable
 
@@ -1341,16 +1341,29 @@ class _System:
     air_density: float
     speed_of_sound: float
     eta_structure: float
+    # The cavity restricted to the rows of one block and the cavity modes they couple with,
+    # by the block's indices (a symmetry block of a rectangle meets a quarter of them).
+    _cavity_blocks: dict = field(default_factory=dict, repr=False)
+
+    def _cavity_of(self, index) -> _Cavity:
+        index = np.asarray(index)
+        key = index.tobytes()
+        sub = self._cavity_blocks.get(key)
+        if sub is None:
+            rows = self.cavity.coupling[index]
+            coupled = np.any(rows != 0, axis=0)
+            sub = self._cavity_blocks[key] = _Cavity(self.cavity.wavenumbers[coupled],
+                                                     rows[:, coupled], self.cavity.depth)
+        return sub
 
     def cavity_matrices(self, frequency_hz: float, index):
         if self.cavity is None:
             n = len(index)
             return np.zeros((n, n)), np.zeros((n, n))
+        cavity = self._cavity_of(index)
         k0 = 2 * np.pi * frequency_hz / self.speed_of_sound
-        s, mu = _cavity_split(self.cavity, k0, self.air_density, self.speed_of_sound)
-        L = self.cavity.coupling[index]
-        used = (s != 0) | (mu != 0)
-        L, s, mu = L[:, used], s[used], mu[used]
+        s, mu = _cavity_split(cavity, k0, self.air_density, self.speed_of_sound)
+        L = cavity.coupling
         return (L * s) @ L.T, (L * mu) @ L.T
 
 
