@@ -1377,15 +1377,7 @@ def _frequency_independent_solution(system: _System, blocks, f_keep: float | Non
     block by block, ascending in eigenvalue (only those up to ``f_keep`` [Hz] when given)."""
     values, vectors = [], []
     n = system.stiffness.shape[0]
-    for block in blocks:
-        k_b = system.stiffness[np.ix_(block, block)]
-        m_b = system.mass[np.ix_(block, block)]
-        if system.cavity is not None:
-            ks, ms = system.cavity_matrices(0.0, block)
-            k_b, m_b = k_b + ks, m_b + ms
-        # The divide-and-conquer driver on the whole block is faster here than the subset
-        # driver on part of it (blocks of tens of modes).
-        w, v = linalg.eigh(k_b, m_b, driver="gvd", check_finite=False)
+    for block, (w, v) in zip(blocks, _block_eigenpairs(system, blocks)):
         if f_keep is not None:
             kept = w <= (2 * np.pi * f_keep) ** 2
             w, v = w[kept], v[:, kept]
@@ -1397,6 +1389,44 @@ def _frequency_independent_solution(system: _System, blocks, f_keep: float | Non
     vectors = np.hstack(vectors)
     order = np.argsort(values)
     return values[order], vectors[:, order]
+
+
+#: Recent open-sided eigenproblems and their solutions (newest last), for exact reuse: the
+#: same panel at another tension (the remedy scan) has the same mass matrix and a stiffness
+#: scaled by s, so the same eigenvectors and eigenvalues scaled by s.
+_SOLVED: list[tuple[np.ndarray, np.ndarray, list[np.ndarray], list[tuple]]] = []
+_SOLVED_KEPT = 8
+
+
+def _block_eigenpairs(system: _System, blocks) -> list[tuple[np.ndarray, np.ndarray]]:
+    """All eigenpairs (λ [rad²/s²], vectors) of ``K q = λ M q`` in each block."""
+    diagonal = np.diag(system.stiffness)
+    reusable = system.cavity is None and np.all(diagonal > 0) and np.count_nonzero(
+        system.stiffness - np.diag(diagonal)) == 0
+    if reusable:
+        for k0, m0, blocks0, pairs in reversed(_SOLVED):
+            if (k0.shape == diagonal.shape and len(blocks0) == len(blocks)
+                    and all(np.array_equal(a, b) for a, b in zip(blocks0, blocks))
+                    and np.array_equal(m0, system.mass)):
+                ratio = diagonal / k0
+                scale = float(ratio[0])
+                if np.all(np.abs(ratio - scale) <= 1e-13 * scale):
+                    return [(w * scale, v) for w, v in pairs]
+    pairs = []
+    for block in blocks:
+        k_b = system.stiffness[np.ix_(block, block)]
+        m_b = system.mass[np.ix_(block, block)]
+        if system.cavity is not None:
+            ks, ms = system.cavity_matrices(0.0, block)
+            k_b, m_b = k_b + ks, m_b + ms
+        # The divide-and-conquer driver on the whole block is faster here than the subset
+        # driver on part of it (blocks of tens of modes).
+        pairs.append(linalg.eigh(k_b, m_b, driver="gvd", check_finite=False))
+    if reusable:
+        _SOLVED.append((diagonal.copy(), system.mass.copy(), [np.array(b) for b in blocks],
+                        pairs))
+        del _SOLVED[:-_SOLVED_KEPT]
+    return pairs
 
 
 def _normalise(vectors: np.ndarray) -> np.ndarray:
