@@ -382,3 +382,22 @@ def test_square_polygon_matches_the_rectangle_with_porous_sheet_and_sealed_cavit
     assert polygon.frequencies_hz[0] == pytest.approx(rectangle.frequencies_hz[0], rel=0.02)
     assert polygon.loss_factor[0] == pytest.approx(rectangle.loss_factor[0], rel=0.06)
     assert polygon.labels[0] != "" and np.all(polygon.loss_factor > 0.0)
+
+
+def test_a_panel_at_another_tension_reuses_its_solution_exactly():
+    # K → sK with the mass (structure + incompressible air) unchanged keeps the eigenvectors
+    # and scales the eigenvalues by s (a linear-algebra fact): the reused solution of the
+    # remedy scan must give what a fresh solve gives.
+    density = 0.25
+    first = fluid.loaded_modes(_rectangle(600, density, 1.5, 1.1), density, fmax=500,
+                               max_modes=12)
+    solved = fluid._SOLVED[-1]
+    again = fluid.loaded_modes(_rectangle(600 * 1.37, density, 1.5, 1.1), density, fmax=500,
+                               max_modes=12)
+    assert fluid._SOLVED[-1] is solved      # the first solution was reused, not a new one
+    fluid._SOLVED.clear()
+    fresh = fluid.loaded_modes(_rectangle(600 * 1.37, density, 1.5, 1.1), density, fmax=500,
+                               max_modes=12)
+    assert len(first) and len(again) == len(fresh)
+    assert np.allclose(again.frequencies_hz, fresh.frequencies_hz, rtol=1e-12, atol=0)
+    assert np.allclose(again.loss_factor, fresh.loss_factor, rtol=1e-9, atol=0)
