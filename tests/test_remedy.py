@@ -11,6 +11,7 @@ from scipy.special import jn_zeros
 from auditor.model import Excitation, Mode, Panel, SourceRef
 from auditor.remedy import bay_panel, excitation_excess, remedy_advice, remedy_for
 from auditor.rules import evaluate_panel, findings_with_remedies, load_ruleset
+from reference_models import ideal_membrane_modes as membrane_modes
 
 # The bundled standard set, with structure-borne pairs held to the full margins (its support
 # participation threshold switched off) so these checks see the plain airborne/structure-borne
@@ -20,18 +21,6 @@ SRC = SourceRef(file="p.xlsx", sheet="Panels", row=4)
 AIR_DENSITY = 1.2  # [kg/m³], air at about 20 °C (common practice)
 
 
-def membrane_modes(panel: Panel, count: int = 8):
-    """Ideal rectangular membrane, fixed edges (f ∝ √T exactly):
-    f_mn = ½ √((Tx/ρs)(m/Lx)² + (Ty/ρs)(n/Ly)²) (P. M. Morse, Vibration and Sound, 2nd ed.,
-    ch. V; chapter from memory); participation 64/(π⁴m²n²) for odd m, n, else 0."""
-    out = []
-    for m in range(1, count + 1):
-        for n in range(1, count + 1):
-            f = 0.5 * math.sqrt(panel.tension_x / panel.areal_density * (m / panel.width) ** 2
-                                + panel.tension_y / panel.areal_density * (n / panel.length) ** 2)
-            p = 64 / (math.pi ** 4 * m * m * n * n) if m % 2 and n % 2 else 0.0
-            out.append(Mode(label=f"({m},{n})", frequency_hz=f, participation=p))
-    return sorted(out, key=lambda mode: mode.frequency_hz)
 
 
 BENDING_STIFFNESS = 10.0  # [N·m]

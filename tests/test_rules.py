@@ -16,6 +16,7 @@ from auditor.rules import (
     ExcitationTable, RuleSetError, evaluate_panel, list_rulesets, load_ruleset,
     mode_frequency_limit, parse_ruleset, rules_dir, separation,
 )
+from reference_models import ideal_membrane_modes as membrane_modes
 
 SRC = SourceRef(file="p.xlsx", sheet="Panels", row=3)
 # The bundled standard set, with structure-borne pairs held to the full margins (its support
@@ -25,20 +26,6 @@ STANDARD = dataclasses.replace(load_ruleset("standard"), support_participation_t
 PLAIN = dataclasses.replace(STANDARD, bandwidth_widening=False)
 
 
-def membrane_modes(panel: Panel, count: int = 8, loss_factor: float | None = None):
-    """Ideal rectangular membrane, fixed edges:
-    f_mn = ½ √((Tx/ρs)(m/Lx)² + (Ty/ρs)(n/Ly)²) (P. M. Morse, Vibration and Sound, 2nd ed.,
-    ch. V, rectangular membrane; chapter from memory); participation 64/(π⁴m²n²) for odd m, n,
-    else 0 (from ∫₀ᴸ sin(mπx/L) dx = 2L/(mπ) for odd m, 0 for even m)."""
-    out = []
-    for m in range(1, count + 1):
-        for n in range(1, count + 1):
-            f = 0.5 * math.sqrt(panel.tension_x / panel.areal_density * (m / panel.width) ** 2
-                                + panel.tension_y / panel.areal_density * (n / panel.length) ** 2)
-            p = 64 / (math.pi ** 4 * m * m * n * n) if m % 2 and n % 2 else 0.0
-            out.append(Mode(label=f"({m},{n})", frequency_hz=f, participation=p,
-                            loss_factor=loss_factor))
-    return sorted(out, key=lambda mode: mode.frequency_hz)
 
 
 def panel(zone="", **kw):

@@ -1,0 +1,23 @@
+"""Textbook mode models the tests judge the product against (not the product's physics)."""
+
+from __future__ import annotations
+
+import math
+
+from auditor.model import Mode, Panel
+
+
+def ideal_membrane_modes(panel: Panel, count: int = 8, loss_factor: float | None = None):
+    """Ideal rectangular membrane, fixed edges (f ∝ √T exactly):
+    f_mn = ½ √((Tx/ρs)(m/Lx)² + (Ty/ρs)(n/Ly)²) (P. M. Morse, Vibration and Sound, 2nd ed.,
+    ch. V, rectangular membrane; chapter from memory); participation 64/(π⁴m²n²) for odd m, n,
+    else 0 (from ∫₀ᴸ sin(mπx/L) dx = 2L/(mπ) for odd m, 0 for even m)."""
+    out = []
+    for m in range(1, count + 1):
+        for n in range(1, count + 1):
+            f = 0.5 * math.sqrt(panel.tension_x / panel.areal_density * (m / panel.width) ** 2
+                                + panel.tension_y / panel.areal_density * (n / panel.length) ** 2)
+            p = 64 / (math.pi ** 4 * m * m * n * n) if m % 2 and n % 2 else 0.0
+            out.append(Mode(label=f"({m},{n})", frequency_hz=f, participation=p,
+                            loss_factor=loss_factor))
+    return sorted(out, key=lambda mode: mode.frequency_hz)
