@@ -167,6 +167,9 @@ class Equipment:
     Speeds are in revolutions per minute as the trade states them (``rpm``), frequencies in
     hertz, lengths in metres, velocity in m/s. ``zones`` is None when the item reaches every
     zone. ``harmonics`` overrides the rule set's count for this item when given.
+    ``isolator_deflection`` [m] is the static deflection of the item's vibration isolators
+    (None: rigidly mounted, an assumption the report states); ``isolator_damping`` is their
+    damping ratio ζ [-] (None: the default for the mount, common practice).
     """
 
     equipment: str
@@ -190,6 +193,8 @@ class Equipment:
     pulley_diameter: float | None = None
     belt_length: float | None = None
     harmonics: int | None = None
+    isolator_deflection: float | None = None
+    isolator_damping: float | None = None
     entered: tuple[tuple[str, str], ...] = ()
 
     def reaches(self, zone: str) -> bool:

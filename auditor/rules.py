@@ -49,6 +49,7 @@ from typing import Any
 
 import numpy as np
 
+from auditor.resources import bundled_dir, rules_search_path
 from auditor.model import Equipment, Excitation, Finding, Mode, Panel
 
 __all__ = [
@@ -236,12 +237,17 @@ _SCHEMA: dict[str, dict[str, tuple[str, Any]]] = {
 
 
 def rules_dir() -> Path:
-    """The folder of bundled rule sets: ``rules/`` beside the package (``AUDITOR_HOME`` wins)."""
-    try:
-        from auditor.resources import project_home
-        return project_home() / "rules"
-    except ImportError:  # pragma: no cover - resources module is part of the package
-        return Path(__file__).resolve().parent.parent / "rules"
+    """The folder of bundled rule sets (``rules/``, shipped inside the package)."""
+    return bundled_dir("rules")
+
+
+def _named_rule_file(name: str) -> Path | None:
+    """The file of a rule set given by name: ``AUDITOR_RULES`` first, then the bundled ones."""
+    for folder in rules_search_path():
+        path = folder / f"{name}.toml"
+        if path.is_file():
+            return path
+    return None
 
 
 def _nearest(word: str, choices: Iterable[str]) -> str:
@@ -433,9 +439,12 @@ def load_ruleset(name_or_path: str | Path) -> RuleSet:
         else:
             raise RuleSetError(f"rule-set file not found: {text}")
     else:
-        path = rules_dir() / f"{text}.toml"
-        if not path.is_file():
-            names = sorted(p.stem for p in rules_dir().glob("*.toml"))
+        found = _named_rule_file(text)
+        if found is not None:
+            path = found
+        else:
+            names = sorted({p.stem for folder in rules_search_path()
+                            for p in folder.glob("*.toml")})
             raise RuleSetError(
                 f"no rule set named '{text}'{_nearest(text, names)} "
                 f"(available: {', '.join(names) or 'none'}; or give a path to a .toml file)"
@@ -458,10 +467,10 @@ def list_rulesets() -> list[RuleSet]:
     RuleSetError
         When one of the files is invalid (the message names it).
     """
-    folder = rules_dir()
-    if not folder.is_dir():
-        return []
-    return sorted((load_ruleset(p) for p in folder.glob("*.toml")), key=lambda r: r.name)
+    files: dict[str, Path] = {}
+    for folder in reversed(rules_search_path()):  # a consultancy's own file wins by name
+        files.update({p.stem: p for p in folder.glob("*.toml")})
+    return sorted((load_ruleset(p) for p in files.values()), key=lambda r: r.name)
 
 
 # ---------------------------------------------------------------------------------------

@@ -131,21 +131,17 @@ class ReportTemplate:
 
 
 def bundled_template_dir() -> Path:
-    """The template folder shipped with the program (``templates/`` beside the package).
+    """The template folder shipped inside the package (``templates/`` in the repository)."""
+    from auditor.resources import ResourceError, bundled_dir
 
-    Found relative to the imported ``auditor`` package, so it works from a source checkout
-    and from an editable install alike.
-    """
-    from auditor.resources import project_home
-
-    candidates = [project_home() / "templates", Path(__file__).resolve().parents[1] / "templates"]
-    for folder in candidates:
-        if (folder / "report.toml").is_file():
-            return folder
-    raise ReportError(
-        "the bundled report templates were not found (looked for report.toml in "
-        + ", ".join(str(c) for c in candidates) + "); pass a template folder instead"
-    )
+    try:
+        folder = bundled_dir("templates")
+    except ResourceError as err:
+        raise ReportError(str(err)) from None
+    if not (folder / "report.toml").is_file():
+        raise ReportError("the bundled report wording (report.toml) is missing from this "
+                          "installation; reinstall the package or pass a templates folder")
+    return folder
 
 
 def _read_toml(path: Path) -> dict[str, Any]:

@@ -1,0 +1,1 @@
+"""Tap-test recordings of the invented demo project."""
