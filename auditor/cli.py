@@ -2,7 +2,12 @@
 
 from __future__ import annotations
 
+from enum import Enum
+from pathlib import Path as _Path
+
 import typer
+from rich.markup import escape
+from rich.text import Text
 
 from auditor import __version__
 
@@ -29,8 +34,6 @@ def _root(
 
 
 # --- schedule commands: check, template ---------------------------------------------------
-
-from pathlib import Path as _Path  # noqa: E402
 
 _CHECK_ROWS_SHOWN = 200
 
@@ -357,36 +360,89 @@ def modes(
 _FORMATS = ("pdf", "json", "csv", "xlsx")
 
 
+class Detail(str, Enum):
+    """How many panels get a page of their own in the PDF."""
+
+    findings = "findings"
+    all = "all"
+
+
+class FailOn(str, Enum):
+    """What makes ``audit`` exit 1."""
+
+    conflict = "conflict"
+    caution = "caution"
+
+
+def _check_formats(value: str) -> str:
+    """``--format``: a comma-separated list of known outputs, checked before any work."""
+    wanted = [f.strip().lower() for f in value.split(",") if f.strip()]
+    unknown = [f for f in wanted if f not in _FORMATS]
+    if unknown or not wanted:
+        raise typer.BadParameter(
+            f"{', '.join(repr(u) for u in unknown) or 'nothing'} is not an output; "
+            f"choose one or more of {', '.join(_FORMATS)}, separated by commas")
+    return ",".join(dict.fromkeys(wanted))
+
+
+def _check_rules(value: str) -> str:
+    """``--rules``: a known rule-set name or a readable TOML file, checked before any work."""
+    from auditor.rules import RuleSetError, load_ruleset
+
+    try:
+        load_ruleset(value)
+    except (RuleSetError, OSError) as exc:
+        raise typer.BadParameter(str(exc)) from None
+    return value
+
+
+def _check_out(value: _Path | None) -> _Path | None:
+    """``--out``: a folder (created when missing), never an existing file."""
+    if value is not None and value.exists() and not value.is_dir():
+        raise typer.BadParameter(f"{value} is a file; --out takes a folder")
+    return value
+
+
+def _check_templates(value: _Path | None) -> _Path | None:
+    """``--templates`` (or AUDITOR_TEMPLATES): an existing folder of report wording."""
+    if value is not None and not value.is_dir():
+        raise typer.BadParameter(f"the templates folder {value} does not exist")
+    return value
+
+
 def _run_audit(schedule, rules, out, as_json, fail_on, formats, detail, calibrated,
-               console) -> int:
-    """The shared body of ``audit`` and ``demo``; returns the exit code."""
+               console, templates=None, recordings_anywhere=False) -> int:
+    """The shared body of ``audit`` and ``demo``; returns the exit code.
+
+    Every option was checked by its callback before this runs.
+    """
     from auditor.audit import audit as run
     from auditor.report import exports
     from auditor.rules import RuleSetError
 
-    wanted = [f.strip().lower() for f in formats.split(",") if f.strip()]
-    unknown = [f for f in wanted if f not in _FORMATS]
-    if unknown:
-        console.print(f"[red]unknown format {unknown[0]!r}[/]; choose from {', '.join(_FORMATS)}")
-        return 2
-    if fail_on not in (None, "conflict", "caution"):
-        console.print("[red]--fail-on takes conflict or caution[/]")
-        return 2
+    wanted = formats.split(",")
     bar, update = _progress_bar("Auditing panels")
     try:
         with bar:
             result = run(schedule, rules=rules, calibrated=calibrated,
-                         with_shapes=out is not None and "pdf" in wanted, progress=update)
+                         with_shapes=out is not None and "pdf" in wanted, progress=update,
+                         **({"recordings_anywhere": True} if recordings_anywhere else {}))
     except RuleSetError as exc:
-        console.print(f"[red]rule set:[/] {exc}", markup=True, highlight=False)
+        console.print(f"[red]rule set:[/] {escape(str(exc))}", highlight=False)
         return 2
     if not result.schedule.files:
         _print_problems(console, result.problems)
         console.print("[red]no schedule file could be read[/]")
         return 2
+    written = []
     if out is not None:
         out = _Path(out)
-        written = []
+        try:
+            out.mkdir(parents=True, exist_ok=True)
+        except OSError as exc:
+            console.print(f"[red]cannot create the folder {escape(str(out))}[/]: "
+                          f"{escape(exc.strerror or str(exc))}")
+            return 2
         if "json" in wanted:
             written.append(exports.write_json(result, out / "findings.json"))
         if "csv" in wanted:
@@ -399,14 +455,13 @@ def _run_audit(schedule, rules, out, as_json, fail_on, formats, detail, calibrat
             bar, update = _progress_bar("Writing the PDF")
             with bar:
                 written.append(write_pdf(result, out / "audit.pdf", detail=detail,
-                                         progress=update))
+                                         template_dir=templates, progress=update))
     if as_json:
         typer.echo(exports.findings_json(result))
     else:
         _print_summary(console, result)
-        if out is not None:
-            for path in written:
-                console.print(f"wrote {path}")
+        for path in written:
+            console.print(Text(f"wrote {path}"))
     summary = result.summary()
     if fail_on == "conflict" and summary["conflicts"]:
         return 1
@@ -416,9 +471,7 @@ def _run_audit(schedule, rules, out, as_json, fail_on, formats, detail, calibrat
 
 
 def _print_summary(console, result) -> None:
-    from rich.markup import escape
     from rich.table import Table
-    from rich.text import Text
 
     s = result.summary()
     table = Table(title="Conflicts", title_justify="left")
@@ -448,69 +501,100 @@ def _print_summary(console, result) -> None:
 
 
 _AUDIT_HELP = {
-    "rules": "Rule set: a name from rules/ (standard, strict) or a TOML file.",
-    "out": "Write findings.json, findings.csv, <schedule>-audited.xlsx and audit.pdf here.",
+    "rules": "Rule set: a name (standard, strict, or one in the AUDITOR_RULES folder) or a "
+             "TOML file.",
+    "out": "Write findings.json, findings.csv, <schedule>-audited.xlsx and audit.pdf into "
+           "this folder (created if missing).",
     "json": "Print the findings document as JSON.",
     "fail_on": "Exit 1 when a conflict (or a caution) is found.",
-    "format": "Comma-separated outputs for --out: pdf, json, csv, xlsx.",
+    "format": "Comma-separated outputs for --out, any of: pdf, json, csv, xlsx.",
     "detail": "PDF: a page for each panel with findings, or for all panels.",
     "calibrated": "Use tensions fitted to the schedule's tap-test recordings.",
+    "templates": "Folder with your own report wording (report.toml, methods.md, cautions.md); "
+                 "files it lacks come from the bundled ones.",
+    "recordings_anywhere": "Allow tap-test recordings outside the schedule's folder "
+                           "(by default only files inside it are read).",
 }
 
 
 @app.command("audit")
 def audit_command(
     schedule: list[_Path] = typer.Argument(..., help="Schedule files (.xlsx or .csv)."),
-    rules: str = typer.Option("standard", "--rules", help=_AUDIT_HELP["rules"]),
-    out: _Path = typer.Option(None, "--out", help=_AUDIT_HELP["out"]),
+    rules: str = typer.Option("standard", "--rules", help=_AUDIT_HELP["rules"],
+                              callback=_check_rules),
+    out: _Path = typer.Option(None, "--out", help=_AUDIT_HELP["out"], callback=_check_out),
     as_json: bool = typer.Option(False, "--json", help=_AUDIT_HELP["json"]),
-    fail_on: str = typer.Option(None, "--fail-on", help=_AUDIT_HELP["fail_on"]),
-    formats: str = typer.Option("pdf,json,csv,xlsx", "--format", help=_AUDIT_HELP["format"]),
-    detail: str = typer.Option("findings", "--detail", help=_AUDIT_HELP["detail"]),
+    fail_on: FailOn = typer.Option(None, "--fail-on", help=_AUDIT_HELP["fail_on"]),
+    formats: str = typer.Option("pdf,json,csv,xlsx", "--format", help=_AUDIT_HELP["format"],
+                                callback=_check_formats),
+    detail: Detail = typer.Option(Detail.findings, "--detail", help=_AUDIT_HELP["detail"]),
     calibrated: bool = typer.Option(False, "--calibrated", help=_AUDIT_HELP["calibrated"]),
+    templates: _Path = typer.Option(None, "--templates", envvar="AUDITOR_TEMPLATES",
+                                    help=_AUDIT_HELP["templates"], callback=_check_templates),
+    recordings_anywhere: bool = typer.Option(False, "--recordings-anywhere",
+                                             help=_AUDIT_HELP["recordings_anywhere"]),
 ) -> None:
     """Audit every panel against every equipment tone that reaches it."""
     from rich.console import Console
 
     console = Console(stderr=as_json)
-    raise typer.Exit(_run_audit(schedule, rules, out, as_json, fail_on, formats, detail,
-                                calibrated, console))
+    raise typer.Exit(_run_audit(schedule, rules, out, as_json,
+                                None if fail_on is None else fail_on.value, formats,
+                                detail.value, calibrated, console, templates,
+                                recordings_anywhere))
 
 
 @app.command("demo")
 def demo(
-    out: _Path = typer.Option(_Path("demo-audit"), "--out", help=_AUDIT_HELP["out"]),
-    rules: str = typer.Option("standard", "--rules", help=_AUDIT_HELP["rules"]),
-    detail: str = typer.Option("findings", "--detail", help=_AUDIT_HELP["detail"]),
+    out: _Path = typer.Option(_Path("demo-audit"), "--out", help=_AUDIT_HELP["out"],
+                              callback=_check_out),
+    rules: str = typer.Option("standard", "--rules", help=_AUDIT_HELP["rules"],
+                              callback=_check_rules),
+    detail: Detail = typer.Option(Detail.findings, "--detail", help=_AUDIT_HELP["detail"]),
+    templates: _Path = typer.Option(None, "--templates", envvar="AUDITOR_TEMPLATES",
+                                    help=_AUDIT_HELP["templates"], callback=_check_templates),
 ) -> None:
-    """Audit the bundled, invented demo project (templates/demo-project.xlsx)."""
+    """Audit the bundled, invented demo project (its workbook and tap-test recording)."""
     from rich.console import Console
 
-    from auditor.resources import demo_workbook
+    from auditor.resources import ResourceError, demo_workbook
 
     console = Console()
-    console.print(f"Auditing the demo project {demo_workbook()}")
-    raise typer.Exit(_run_audit([demo_workbook()], rules, out, False, None,
-                                ",".join(_FORMATS), detail, True, console))
+    try:
+        workbook = demo_workbook()
+    except ResourceError as exc:
+        console.print(Text(str(exc), style="red"))
+        raise typer.Exit(2) from None
+    console.print(f"Auditing the invented demo project ({workbook.name}) into {escape(str(out))}")
+    raise typer.Exit(_run_audit([workbook], rules, out, False, None, ",".join(_FORMATS),
+                                detail.value, True, console, templates))
 
 
 @app.command("rules")
 def rules_command(
     name: str = typer.Argument(None, help="A rule set to show in full (name or TOML path)."),
     as_json: bool = typer.Option(False, "--json", help="Print as JSON."),
+    copy: _Path = typer.Option(None, "--copy", help="Copy the rule set's TOML file to this "
+                               "path, to edit it and pass it to --rules."),
 ) -> None:
-    """List the rule sets, or show one."""
+    """List the rule sets, or show one (or copy it out for editing)."""
     import json
 
     from rich.console import Console
     from rich.table import Table
-    from rich.text import Text
 
     from auditor.rules import RuleSetError, list_rulesets, load_ruleset
 
     console = Console()
     if name is None:
-        sets = list_rulesets()
+        if copy is not None:
+            console.print("[red]--copy needs the name of the rule set to copy[/]")
+            raise typer.Exit(2)
+        try:
+            sets = list_rulesets()
+        except RuleSetError as exc:
+            console.print(Text(f"rule set: {exc}", style="red"))
+            raise typer.Exit(2) from None
         if as_json:
             typer.echo(json.dumps([r.as_dict() for r in sets], indent=1, ensure_ascii=False))
             return
@@ -519,18 +603,34 @@ def rules_command(
             table.add_column(head, overflow="fold")
         for r in sets:
             table.add_row(Text(r.name), f"±{100 * r.conflict_margin:g} %",
-                          f"±{100 * r.caution_margin:g} %", Text(r.description), Text(r.path))
+                          f"±{100 * r.caution_margin:g} %", Text(r.description),
+                          Text(_Path(r.path).name))
         console.print(table)
         return
     try:
         ruleset = load_ruleset(name)
-    except (RuleSetError, FileNotFoundError) as exc:
+    except (RuleSetError, OSError) as exc:
         console.print(Text(f"rule set: {exc}", style="red"))
         raise typer.Exit(2) from None
+    if copy is not None:
+        from auditor.atomic import write_atomic
+
+        target = copy / _Path(ruleset.path).name if copy.is_dir() else copy
+        if target.exists():
+            console.print(Text(f"{target} exists already; choose another path", style="red"))
+            raise typer.Exit(1)
+        try:
+            write_atomic(target, _Path(ruleset.path).read_bytes())
+        except OSError as exc:
+            console.print(Text(f"could not write {target}: {exc.strerror or exc}", style="red"))
+            raise typer.Exit(1) from None
+        console.print(Text(f"Wrote {target}; edit it and pass it with --rules {target}"))
+        return
     if as_json:
         typer.echo(json.dumps(ruleset.as_dict(), indent=1, ensure_ascii=False))
         return
-    table = Table(title=f"Rule set {ruleset.name}", title_justify="left", show_header=False)
+    table = Table(title=f"Rule set {escape(ruleset.name)}", title_justify="left",
+                  show_header=False)
     table.add_column("key")
     table.add_column("value", overflow="fold")
     for key, value in ruleset.as_dict().items():
@@ -539,13 +639,57 @@ def rules_command(
     console.print(table)
 
 
+@app.command("export-templates")
+def export_templates(
+    folder: _Path = typer.Argument(..., help="Folder to write the report wording into."),
+    force: bool = typer.Option(False, "--force", help="Overwrite files already there."),
+) -> None:
+    """Copy the bundled report wording (report.toml, methods.md, cautions.md) out for editing.
+
+    Pass the folder back with --templates (or set AUDITOR_TEMPLATES) to use your wording.
+    """
+    from rich.console import Console
+
+    from auditor.atomic import write_atomic
+    from auditor.resources import REPORT_WORDING_FILES, bundled_dir
+
+    console = Console()
+    if folder.exists() and not folder.is_dir():
+        console.print(Text(f"{folder} is a file; give a folder", style="red"))
+        raise typer.Exit(2)
+    targets = [folder / name for name in REPORT_WORDING_FILES]
+    existing = [t.name for t in targets if t.exists()]
+    if existing and not force:
+        console.print(Text(f"{', '.join(existing)} exist already in {folder}; use --force "
+                           "to overwrite", style="red"))
+        raise typer.Exit(1)
+    try:
+        folder.mkdir(parents=True, exist_ok=True)
+        for name, target in zip(REPORT_WORDING_FILES, targets):
+            write_atomic(target, (bundled_dir("templates") / name).read_bytes())
+    except OSError as exc:
+        console.print(Text(f"could not write into {folder}: {exc.strerror or exc}", style="red"))
+        raise typer.Exit(1) from None
+    console.print(Text(f"Wrote {', '.join(REPORT_WORDING_FILES)} into {folder}; use it with "
+                       f"--templates {folder} or AUDITOR_TEMPLATES={folder}"))
+
+
+class Fit(str, Enum):
+    """What ``calibrate`` fits to the measured peaks."""
+
+    tension = "tension"
+    tension_ratio = "tension-ratio"
+    areal_density = "areal-density"
+
+
 @app.command("calibrate")
 def calibrate_command(
     schedule: list[_Path] = typer.Argument(..., help="Schedule files with a 'tap test' column."),
     panel: str = typer.Option(None, "--panel", help="Only this panel id."),
-    fit: str = typer.Option("tension", "--fit",
-                            help="What to fit: tension, tension-ratio or areal-density."),
+    fit: Fit = typer.Option(Fit.tension, "--fit", help="What to fit from the peaks."),
     as_json: bool = typer.Option(False, "--json", help="Print the calibrations as JSON."),
+    recordings_anywhere: bool = typer.Option(False, "--recordings-anywhere",
+                                             help=_AUDIT_HELP["recordings_anywhere"]),
 ) -> None:
     """Fit each panel's tension to its tap-test recording and compare with the schedule."""
     import json
@@ -559,11 +703,6 @@ def calibrate_command(
     from auditor.schedule import read_schedule
 
     console = Console(stderr=as_json)
-    fits = {"tension": "tension", "tension-ratio": "tension_ratio",
-            "areal-density": "areal_density"}
-    if fit not in fits:
-        console.print(f"[red]--fit takes one of {', '.join(fits)}[/]")
-        raise typer.Exit(2)
     read = read_schedule(schedule)
     if not read.files:
         _print_problems(console, read.problems)
@@ -571,7 +710,7 @@ def calibrate_command(
 
     with console.status("Fitting tap tests"):
         calibrations, problems = calibrate_schedule(read, calibration_modes(read.project),
-                                                    panel_id=panel, fit=fits[fit])
+                                                    panel_id=panel, fit=fit.value.replace("-", "_"))
     problems = list(read.problems) + list(problems)
     if as_json:
         typer.echo(json.dumps({"panels": [calibration_to_dict(c) for c in calibrations],
@@ -585,11 +724,17 @@ def calibrate_command(
         for c in calibrations:
             table.add_row(Text(c.panel), f"{c.scheduled_tension:.0f}", f"{c.tension:.0f}",
                           f"{100 * (c.tension / c.scheduled_tension - 1):+.1f} %",
-                          f"{100 * c.uncertainty:.1f} %", str(len(c.peaks_hz)),
+                          _uncertainty_text(c.uncertainty), str(len(c.peaks_hz)),
                           str(len(c.matched)), f"{c.residual:.2f} %")
         console.print(table)
         _print_problems(console, problems)
     raise typer.Exit(0 if calibrations or not problems else 2)
+
+
+def _uncertainty_text(uncertainty: float | None) -> str:
+    """A fitted tension's relative uncertainty; None when the peaks cannot give one (as many
+    peaks as fitted parameters leave no residual to estimate it from)."""
+    return "n/a" if uncertainty is None else f"{100 * uncertainty:.1f} %"
 
 
 def main() -> None:
