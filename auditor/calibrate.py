@@ -41,14 +41,16 @@ from __future__ import annotations
 import dataclasses
 import math
 import os
+import posixpath
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, Callable, Literal, Sequence
+from typing import Any, Callable, Literal, Mapping, Sequence
 
 import numpy as np
 
 from auditor.model import Mode, Panel, RowProblem, Schedule
 from auditor.recording import Recording, RecordingError, read_recording
+from auditor.schedule.inputs import input_location
 
 __all__ = [
     "Peak",
@@ -67,6 +69,7 @@ __all__ = [
     "calibrate_panel",
     "calibrate_schedule",
     "calibration_to_dict",
+    "format_uncertainty",
     "apply_calibration",
 ]
 
@@ -171,8 +174,10 @@ class Calibration:
     areal_density, scheduled_areal_density : float  [kg/m²]
     uncertainty : float or None  [-]
         Standard error of the fitted parameter (of ``tension`` for "tension_ratio") as a
-        fraction of its value, from the Jacobian and the residual variance; None with fewer
-        matched peaks than parameters + 1.
+        fraction of its value, from the Jacobian and the residual variance. **None** when it
+        cannot be estimated: with no more matched peaks than fitted parameters (one peak,
+        or two peaks for "tension_ratio"; a note says so) or a singular Jacobian. Format it
+        with ``format_uncertainty``; JSON gives null.
     uncertainty_y : float or None  [-]
         The same for ``tension_y`` when "tension_ratio" was fitted, else None.
     peaks_hz : tuple of float  [Hz]
@@ -189,7 +194,8 @@ class Calibration:
     loss_factors : tuple of (mode label, loss factor or None)
         Measured loss factor of each matched mode.
     recording : str
-        The recording's file.
+        The recording as the schedule names it (its path relative to the schedule's
+        folder), or its file name alone; never an absolute path.
     notes : tuple of str
     """
 
@@ -859,7 +865,9 @@ def calibrate_panel(
     panel : Panel
         As scheduled; the scheduled values are the start and the reference of the fit.
     recording : Recording or path
-        A time series (its ring-down is analysed) or a spectrum.
+        A time series (its ring-down is analysed) or a spectrum. A path is read as given,
+        and named by its file name alone; ``calibrate_schedule`` is what confines a
+        schedule's paths to its folder.
     modes_of : callable (Panel) -> sequence of Mode
         The full model (air loading included in production). It should return every mode
         below a fixed frequency that lies above the highest peak of interest; only peaks
@@ -1024,7 +1032,7 @@ def calibrate_panel(
         residual=float(100.0 * np.sqrt(np.mean(np.expm1(residual_logs_arr) ** 2))),
         residual_cents=float(_CENTS_PER_LOG * np.sqrt(np.mean(residual_logs_arr**2))),
         loss_factors=tuple((m.mode, m.loss_factor) for m in matched),
-        recording=recording.source,
+        recording=_shown_name(recording.source),
         notes=tuple(notes),
     )
 
@@ -1034,10 +1042,64 @@ def calibrate_panel(
 # --------------------------------------------------------------------------------------------
 
 def _tap_test_column(panel: Panel) -> str:
-    for column, _text in panel.entered:
-        if "tap" in column.casefold():
+    """The tap-test header as the user typed it (the one holding the cell, if several)."""
+    headers = [column for column, _text in panel.entered if "tap" in column.casefold()]
+    for column, text in panel.entered:
+        if column in headers and text.strip() == (panel.tap_test or "").strip():
             return column
-    return "tap test"
+    return headers[0] if headers else "tap test"
+
+
+def _shown_name(source: str) -> str:
+    """A recording's name for outputs: as given when relative, the file name when absolute."""
+    if os.path.isabs(source) or posixpath.isabs(source):
+        return Path(source).name
+    return source
+
+
+#: Why a recording outside the schedule's folder is not opened (no path is echoed).
+_OUTSIDE_FOLDER = (
+    "the recording must be inside the schedule's folder (or a folder below it); an absolute "
+    "path, a path that climbs out with '..', or a link that leads out is not opened")
+
+
+def _locate(cell: str, folder: Path, allow_outside: bool) -> tuple[Path, str] | None:
+    """Where a tap-test cell points, and how to name it; None when it leads out of ``folder``.
+
+    The cell is a path relative to the schedule's folder (``\\`` is taken for ``/``, as a
+    schedule typed on Windows writes it). Unless ``allow_outside``, the path is resolved,
+    links followed, and must lie inside the resolved folder; the resolved path, with no
+    link left in it, is what is then opened.
+    """
+    typed = cell.strip().replace("\\", "/")
+    if allow_outside:
+        absolute = Path(typed).is_absolute()
+        return folder / typed, Path(typed).name if absolute else posixpath.normpath(typed)
+    try:
+        root = folder.resolve()
+        target = (root / typed).resolve()
+    except (OSError, RuntimeError, ValueError):  # a link loop, a NUL byte, a name too long
+        return None
+    if Path(typed).is_absolute() or not target.is_relative_to(root):
+        return None
+    return target, posixpath.normpath(typed)
+
+
+def _schedule_folder(schedule: Schedule, panel: Panel,
+                     folders: Mapping[str, str | os.PathLike] | None,
+                     base_dir: str | os.PathLike | None) -> Path | None:
+    """The folder a panel's tap-test path is relative to, or None when it is not known."""
+    if base_dir is not None:
+        return Path(base_dir)
+    if folders is not None:
+        folder = folders.get(panel.source.file)
+        return Path(folder) if folder is not None else None
+    location = input_location(schedule, panel.source.file)
+    if location is not None:
+        return location.parent
+    if os.path.isabs(panel.source.file):  # a schedule made in memory, naming its file in full
+        return Path(panel.source.file).parent
+    return None
 
 
 def calibrate_schedule(
@@ -1045,12 +1107,22 @@ def calibrate_schedule(
     modes_of: ModesOf,
     *,
     panel_id: str | None = None,
+    folders: Mapping[str, str | os.PathLike] | None = None,
     base_dir: str | os.PathLike | None = None,
+    allow_outside: bool = False,
     line_frequency: float | None = None,
     fit: FitParameter = "tension",
     **options: Any,
 ) -> tuple[tuple[Calibration, ...], tuple[RowProblem, ...]]:
     """Calibrate every panel of a schedule that names a tap-test recording.
+
+    A schedule is an untrusted file, so its tap-test cells are confined: each is a path
+    relative to the folder of the schedule file it came from, and must resolve (links
+    followed) to a file inside that folder or a folder below it. Any other path (absolute,
+    climbing out with ``..``, or through a link that leads out) is not opened: it is an
+    error ``RowProblem`` whose message does not show where the path leads. Recordings are
+    named in every message and in ``Calibration.recording`` by the path as typed, never by
+    an absolute path, and their content is never quoted.
 
     Parameters
     ----------
@@ -1058,9 +1130,18 @@ def calibrate_schedule(
     modes_of : callable (Panel) -> sequence of Mode
     panel_id : str or None
         Calibrate only this panel.
+    folders : mapping of str to path, or None
+        The folder of each schedule file, keyed by the file as the panels name it
+        (``Panel.source.file``). Not needed for a schedule from ``read_schedule``: by
+        default the folder is that of the file the schedule records it read
+        (``auditor.schedule.inputs.input_location``), or, for a schedule made in memory,
+        the folder of an absolute ``Panel.source.file``. A panel whose folder is not known
+        gets a warning and keeps its scheduled values.
     base_dir : path or None
-        Folder the ``tap_test`` paths are relative to; by default each panel's schedule file's
-        folder (``Panel.source.file``).
+        One folder for every panel instead of ``folders``.
+    allow_outside : bool
+        Open recordings wherever their paths lead. For an explicit choice of the user (a
+        command-line flag); never the default.
     line_frequency : float or None  [Hz]
         Defaults to the project's line frequency.
     fit : {"tension", "tension_ratio", "areal_density"}
@@ -1071,8 +1152,10 @@ def calibrate_schedule(
     -------
     calibrations : tuple of Calibration
     problems : tuple of RowProblem
-        One per recording that could not be used, severity "warning" (the panel is still
-        audited at its scheduled values), naming the file, sheet, row and tap-test column.
+        One per recording that was not used, naming the file, sheet, row and the tap-test
+        column as typed. Severity "error" for a path outside the schedule's folder;
+        "warning" for a recording that could not be read or fitted. Either way the panel is
+        still audited at its scheduled values.
     """
     if line_frequency is None:
         line_frequency = schedule.project.line_frequency
@@ -1084,22 +1167,33 @@ def calibrate_schedule(
                                    message=f"no panel '{panel_id}' in the schedule",
                                    severity="warning", record=panel_id))
     for panel in panels:
-        if not panel.tap_test:
+        if not panel.tap_test or not panel.tap_test.strip():
             continue
-        folder = Path(base_dir) if base_dir is not None else Path(panel.source.file).parent
-        path = Path(panel.tap_test)
-        if not path.is_absolute():
-            path = folder / path
-        try:
-            calibrations.append(calibrate_panel(panel, path, modes_of,
-                                                line_frequency=line_frequency, fit=fit,
-                                                **options))
-        except (RecordingError, CalibrationError) as error:
+
+        def problem(message: str, severity: str = "warning", panel: Panel = panel) -> None:
             problems.append(RowProblem(
                 file=panel.source.file, sheet=panel.source.sheet, row=panel.source.row,
                 column=_tap_test_column(panel),
-                message=f"tap test not used (scheduled values kept): {error}",
-                severity="warning", text=panel.tap_test, record=panel.panel))
+                message=f"tap test not used (scheduled values kept): {message}",
+                severity=severity, text=panel.tap_test or "", record=panel.panel))
+
+        folder = _schedule_folder(schedule, panel, folders, base_dir)
+        if folder is None:
+            problem("the folder of this schedule file is not known, so the recording "
+                    "cannot be found")
+            continue
+        located = _locate(panel.tap_test, folder, allow_outside)
+        if located is None:
+            problem(_OUTSIDE_FOLDER + " (pass --recordings-anywhere to allow it)")
+            continue
+        path, shown = located
+        try:
+            recording = read_recording(path, name=shown)
+            calibrations.append(calibrate_panel(panel, recording, modes_of,
+                                                line_frequency=line_frequency, fit=fit,
+                                                **options))
+        except (RecordingError, CalibrationError) as error:
+            problem(str(error))
     return tuple(calibrations), tuple(problems)
 
 
@@ -1127,6 +1221,25 @@ def calibration_to_dict(calibration: Calibration) -> dict[str, Any]:
         "recording": c.recording,
         "notes": list(c.notes),
     }
+
+
+def format_uncertainty(calibration: Calibration) -> str:
+    """The fitted value's standard error as a table shows it.
+
+    "±1.2 %"; "±1.2 % / ±3.4 %" (``tension`` / ``tension_y``) when both tensions were
+    fitted; "n/a (1 matched peak)" when it cannot be estimated (``uncertainty`` is None:
+    no more matched peaks than fitted parameters), or "n/a" (a singular fit).
+    """
+    c = calibration
+    if c.uncertainty is None:
+        count = len(c.matched)
+        if count <= FIT_PARAMETERS.get(c.fitted, 1):
+            return f"n/a ({count} matched peak{'' if count == 1 else 's'})"
+        return "n/a"
+    text = f"±{100.0 * c.uncertainty:.1f} %"
+    if c.uncertainty_y is not None:
+        text += f" / ±{100.0 * c.uncertainty_y:.1f} %"
+    return text
 
 
 def apply_calibration(panel: Panel, calibration: Calibration) -> Panel:

@@ -599,12 +599,12 @@ def rules_command(
             typer.echo(json.dumps([r.as_dict() for r in sets], indent=1, ensure_ascii=False))
             return
         table = Table(title="Rule sets", title_justify="left")
-        for head in ("Name", "Conflict", "Caution", "Description", "File"):
+        for head in ("Name", "Conflict", "Caution", "Description", "From"):
             table.add_column(head, overflow="fold")
         for r in sets:
             table.add_row(Text(r.name), f"±{100 * r.conflict_margin:g} %",
                           f"±{100 * r.caution_margin:g} %", Text(r.description),
-                          Text(_Path(r.path).name))
+                          Text(r.origin))
         console.print(table)
         return
     try:
@@ -614,13 +614,16 @@ def rules_command(
         raise typer.Exit(2) from None
     if copy is not None:
         from auditor.atomic import write_atomic
+        from auditor.resources import rules_search_path
 
-        target = copy / _Path(ruleset.path).name if copy.is_dir() else copy
+        named = [folder / f"{name}.toml" for folder in rules_search_path()]
+        source = next((p for p in [_Path(name), *named] if p.is_file()))
+        target = copy / source.name if copy.is_dir() else copy
         if target.exists():
             console.print(Text(f"{target} exists already; choose another path", style="red"))
             raise typer.Exit(1)
         try:
-            write_atomic(target, _Path(ruleset.path).read_bytes())
+            write_atomic(target, source.read_bytes())
         except OSError as exc:
             console.print(Text(f"could not write {target}: {exc.strerror or exc}", style="red"))
             raise typer.Exit(1) from None
@@ -699,7 +702,7 @@ def calibrate_command(
     from rich.text import Text
 
     from auditor.audit import calibration_modes
-    from auditor.calibrate import calibrate_schedule, calibration_to_dict
+    from auditor.calibrate import calibrate_schedule, calibration_to_dict, format_uncertainty
     from auditor.schedule import read_schedule
 
     console = Console(stderr=as_json)
@@ -710,7 +713,8 @@ def calibrate_command(
 
     with console.status("Fitting tap tests"):
         calibrations, problems = calibrate_schedule(read, calibration_modes(read.project),
-                                                    panel_id=panel, fit=fit.value.replace("-", "_"))
+                                                    panel_id=panel, fit=fit.value.replace("-", "_"),
+                                                    allow_outside=recordings_anywhere)
     problems = list(read.problems) + list(problems)
     if as_json:
         typer.echo(json.dumps({"panels": [calibration_to_dict(c) for c in calibrations],
@@ -724,17 +728,11 @@ def calibrate_command(
         for c in calibrations:
             table.add_row(Text(c.panel), f"{c.scheduled_tension:.0f}", f"{c.tension:.0f}",
                           f"{100 * (c.tension / c.scheduled_tension - 1):+.1f} %",
-                          _uncertainty_text(c.uncertainty), str(len(c.peaks_hz)),
+                          format_uncertainty(c), str(len(c.peaks_hz)),
                           str(len(c.matched)), f"{c.residual:.2f} %")
         console.print(table)
         _print_problems(console, problems)
     raise typer.Exit(0 if calibrations or not problems else 2)
-
-
-def _uncertainty_text(uncertainty: float | None) -> str:
-    """A fitted tension's relative uncertainty; None when the peaks cannot give one (as many
-    peaks as fitted parameters leave no residual to estimate it from)."""
-    return "n/a" if uncertainty is None else f"{100 * uncertainty:.1f} %"
 
 
 def main() -> None:

@@ -33,7 +33,17 @@ comments)
 
 Checks (each failure raises ``RecordingError`` naming the file and the problem)
 -------------------------------------------------------------------------------
+A message names the file (by the name the caller gives, by default its file name alone) and
+says what is wrong and where (line and column of a CSV), but never quotes the file's text:
+a recording path may point at a file that is not a recording at all.
+
 - missing, unreadable or empty file; a file that is neither WAV nor numeric CSV;
+- too large: over ``MAX_RECORDING_BYTES`` bytes (refused before any of it is read); a CSV
+  of more than ``MAX_CSV_LINES`` lines, a line over ``MAX_CSV_LINE_BYTES`` bytes or more
+  than ``MAX_CSV_COLUMNS`` columns (refused before it is parsed); a time series of more
+  than ``MAX_SAMPLES`` samples (refused before it is converted or analysed). A tap's
+  ring-down lasts seconds; these bound the memory and time a file can take;
+- not a regular file (a device or a pipe, which could block or never end);
 - too short: fewer than ``MIN_SAMPLES`` samples or shorter than ``MIN_DURATION_S``; a
   spectrum with fewer than ``MIN_SPECTRUM_POINTS`` points;
 - all silent: no sample departs from the mean by more than one quantisation step;
@@ -47,9 +57,9 @@ Checks (each failure raises ``RecordingError`` naming the file and the problem)
 from __future__ import annotations
 
 import csv
-import io
 import os
 import re
+import stat
 import struct
 import tempfile
 import warnings
@@ -69,6 +79,11 @@ __all__ = [
     "MIN_SAMPLES",
     "MIN_SPECTRUM_POINTS",
     "CLIP_RUN_SAMPLES",
+    "MAX_RECORDING_BYTES",
+    "MAX_SAMPLES",
+    "MAX_CSV_LINES",
+    "MAX_CSV_LINE_BYTES",
+    "MAX_CSV_COLUMNS",
 ]
 
 #: Shortest usable time series  [s]; a lightly damped low mode needs at least this long a
@@ -80,6 +95,16 @@ MIN_SAMPLES = 1024
 MIN_SPECTRUM_POINTS = 32
 #: Consecutive full-scale samples that make a recording clipped (an error).
 CLIP_RUN_SAMPLES = 3
+#: Largest recording file read  [byte]; larger ones are refused before reading.
+MAX_RECORDING_BYTES = 200_000_000
+#: Most samples (per channel) of a time series: 2**22, about 87 s at 48 kHz.
+MAX_SAMPLES = 2**22
+#: Most lines of a CSV recording (about 21 s of one column at 48 kHz).
+MAX_CSV_LINES = 1_000_000
+#: Longest line of a CSV recording  [byte].
+MAX_CSV_LINE_BYTES = 4096
+#: Most columns of a CSV recording (time or frequency, and the signals or levels).
+MAX_CSV_COLUMNS = 16
 #: A headerless first column stepping by less than this is time [s], else frequency [Hz].
 _TIME_STEP_LIMIT = 0.005
 
@@ -97,7 +122,9 @@ class Recording:
     Parameters
     ----------
     source : str
-        The file it was read from ("" when made in memory).
+        How the file it was read from is named in messages and outputs: the name given to
+        ``read_recording`` (a path relative to the schedule's folder, say), by default the
+        file name alone ("" when made in memory).
     samples : ndarray (n,) or None  [full scale = 1 for WAV; as written for CSV]
         One channel of samples.
     sample_rate : float or None  [Hz]
@@ -172,14 +199,19 @@ def _freeze(obj: Recording, name: str, array: np.ndarray) -> None:
 # Reading
 # --------------------------------------------------------------------------------------------
 
-def read_recording(path: str | os.PathLike) -> Recording:
+def read_recording(path: str | os.PathLike, *, name: str | None = None) -> Recording:
     """Read a tap-test recording (WAV or CSV) and check that it is usable.
 
     Parameters
     ----------
     path : str or path-like
         A ``.wav`` file, or a ``.csv``/``.txt`` file holding a spectrum or a time series (the
-        module docstring gives the conventions). Other names are recognised by content.
+        module docstring gives the conventions). Other names are recognised by content. The
+        path is read as given: confining it to a folder is the caller's job (see
+        ``auditor.calibrate.calibrate_schedule``).
+    name : str or None
+        How to name the file in messages and in ``Recording.source``; by default its file
+        name alone, so that no folder of the machine shows in any output.
 
     Returns
     -------
@@ -188,25 +220,39 @@ def read_recording(path: str | os.PathLike) -> Recording:
     Raises
     ------
     RecordingError
-        With a message naming the file: missing, empty, not audio, too short, silent or
-        clipped.
+        With a message naming the file: missing, not a regular file, too large, empty, not
+        audio, too short, silent or clipped. The message never quotes the file's content.
     """
     path = Path(path)
-    label = f"tap-test recording '{path}'"
-    if not path.exists():
-        raise RecordingError(f"{label} not found")
-    if path.is_dir():
-        raise RecordingError(f"{label} is a folder, not a recording file")
+    shown = name if name is not None else path.name
+    label = f"tap-test recording '{shown}'"
     try:
-        head = path.open("rb").read(4096)
+        info = path.stat()
+    except FileNotFoundError:
+        raise RecordingError(f"{label} not found") from None
+    except (OSError, ValueError) as error:
+        reason = error.strerror if isinstance(error, OSError) and error.strerror else "bad path"
+        raise RecordingError(f"{label} cannot be read: {reason}") from None
+    if stat.S_ISDIR(info.st_mode):
+        raise RecordingError(f"{label} is a folder, not a recording file")
+    if not stat.S_ISREG(info.st_mode):
+        raise RecordingError(f"{label} is not a regular file (a device, pipe or socket)")
+    if info.st_size > MAX_RECORDING_BYTES:
+        raise RecordingError(
+            f"{label} is {info.st_size / 1e6:.0f} MB; refused (the limit is "
+            f"{MAX_RECORDING_BYTES / 1e6:.0f} MB): trim it to the tap and its ring-down")
+    try:
+        with path.open("rb") as handle:
+            head = handle.read(4096)
     except OSError as error:
-        raise RecordingError(f"{label} cannot be read: {error.strerror or error}") from None
+        raise RecordingError(f"{label} cannot be read: {error.strerror or 'input error'}") \
+            from None
     if not head:
         raise RecordingError(f"{label} is empty (0 bytes)")
 
     suffix = path.suffix.lower()
     if head[:4] in (b"RIFF", b"RIFX", b"RF64"):
-        return _read_wav(path, label)
+        return _read_wav(path, label, shown)
     if suffix in (".wav", ".wave"):
         raise RecordingError(
             f"{label} is not a WAV file (it does not start with a RIFF header); "
@@ -215,7 +261,7 @@ def read_recording(path: str | os.PathLike) -> Recording:
         raise RecordingError(
             f"{label} is not an audio recording this reader understands "
             "(expected a WAV file or a CSV spectrum or time series)")
-    return _read_csv(path, label)
+    return _read_csv(path, label, shown)
 
 
 def _looks_like_text(head: bytes) -> bool:
@@ -258,65 +304,81 @@ def _wav_format(path: Path) -> tuple[int | None, int | None]:
     return None, None
 
 
-def _read_wav(path: Path, label: str) -> Recording:
+def _read_wav(path: Path, label: str, shown: str) -> Recording:
     from scipy.io import wavfile
 
+    tag, bits = _wav_format(path)
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", wavfile.WavFileWarning)
         try:
             rate, data = wavfile.read(path)
-        except (ValueError, EOFError, struct.error, IndexError) as error:
-            reason = str(error).strip() or type(error).__name__
-            if "format" in reason.lower() and "not" in reason.lower():
-                raise RecordingError(
-                    f"{label} uses a WAV encoding this reader does not support ({reason}); "
-                    "save it as PCM (16, 24 or 32 bit) or float WAV") from None
-            raise RecordingError(f"{label} is not a readable WAV file ({reason})") from None
         except OSError as error:
-            raise RecordingError(f"{label} cannot be read: {error.strerror or error}") from None
+            raise RecordingError(
+                f"{label} cannot be read: {error.strerror or 'input error'}") from None
+        except Exception:  # noqa: BLE001 - any failure of the parser on an untrusted file
+            # scipy's own message can quote bytes of the file (its form type): described here
+            layout = (f" (format code {tag}, {bits} bits per sample)"
+                      if tag is not None else "")
+            if tag is not None and tag not in (1, 3):
+                raise RecordingError(
+                    f"{label} uses a WAV encoding this reader does not support{layout}; "
+                    "save it as PCM (16, 24 or 32 bit) or float WAV") from None
+            raise RecordingError(
+                f"{label} is not a readable WAV file{layout}: its header or data is damaged, "
+                "cut short or of a layout this reader does not support; save it again as "
+                "PCM (16, 24 or 32 bit) or float WAV") from None
 
-    tag, bits = _wav_format(path)
     data = np.asarray(data)
     if data.size == 0:
         raise RecordingError(f"{label} is empty (the WAV file holds no samples)")
+    if not rate > 0:
+        raise RecordingError(f"{label} gives a sample rate of {rate} Hz in its header")
+    if data.shape[0] > MAX_SAMPLES:
+        raise RecordingError(
+            f"{label} is too long: {data.shape[0]} samples ({data.shape[0] / rate:.0f} s); "
+            f"the limit is {MAX_SAMPLES} samples: trim it to the tap and its ring-down")
 
-    if data.dtype.kind == "f":
-        samples = data.astype(float)
-        step = np.finfo(data.dtype).eps
-        encoding = f"{data.dtype.itemsize * 8}-bit float WAV"
-    elif data.dtype.kind == "u":  # 8-bit and lower are unsigned, offset by half range
-        half = 2.0 ** (data.dtype.itemsize * 8 - 1)
-        samples = (data.astype(float) - half) / half
-        bits = bits or data.dtype.itemsize * 8
+    # one channel is chosen before any conversion, so memory stays that of the file
+    raw, channel, channels, notes = _pick_channel(data, "channel")
+    if raw.dtype.kind == "f":
+        samples = raw.astype(float)
+        step = np.finfo(raw.dtype).eps
+        encoding = f"{raw.dtype.itemsize * 8}-bit float WAV"
+    elif raw.dtype.kind == "u":  # 8-bit and lower are unsigned, offset by half range
+        half = 2.0 ** (raw.dtype.itemsize * 8 - 1)
+        samples = (raw.astype(float) - half) / half
+        bits = bits or raw.dtype.itemsize * 8
         step = 2.0 ** (1 - bits)
         encoding = f"{bits}-bit PCM WAV"
     else:  # left-justified signed integers: divide by the container's half range
-        half = 2.0 ** (data.dtype.itemsize * 8 - 1)
-        samples = data.astype(float) / half
-        bits = bits or data.dtype.itemsize * 8
+        half = 2.0 ** (raw.dtype.itemsize * 8 - 1)
+        samples = raw.astype(float) / half
+        bits = bits or raw.dtype.itemsize * 8
         step = 2.0 ** (1 - bits)
         encoding = f"{bits}-bit PCM WAV"
     if not np.all(np.isfinite(samples)):
         raise RecordingError(f"{label} contains samples that are not numbers (NaN or infinity)")
 
-    samples, channel, channels, notes = _pick_channel(samples, "channel")
     _check_length(samples, float(rate), label)
     _check_silence(samples, step, label)
     notes += _check_clipping(samples, full_scale=1.0 - 2.0 * step, label=label,
                              sample_rate=float(rate))
-    return Recording(source=str(path), samples=samples, sample_rate=float(rate),
+    return Recording(source=shown, samples=samples, sample_rate=float(rate),
                      channel=channel, channels=channels, encoding=encoding, notes=notes)
 
 
 def _pick_channel(samples: np.ndarray,
                   word: str) -> tuple[np.ndarray, int | None, int, tuple[str, ...]]:
-    """The channel with the most energy (mean square about its mean), and a note saying so."""
+    """The channel with the most energy (mean square about its mean), and a note saying so.
+
+    The energy is computed one channel at a time, so no float copy of the whole file is made.
+    """
     if samples.ndim == 1:
         return samples, None, 1, ()
     channels = samples.shape[1]
     if channels == 1:
         return samples[:, 0], None, 1, ()
-    energy = np.var(samples, axis=0)
+    energy = np.array([np.var(samples[:, c], dtype=np.float64) for c in range(channels)])
     best = int(np.argmax(energy))
     note = (f"{channels} {word}s; {word} {best + 1} used (it has the most energy; "
             f"channels are not mixed, so out-of-phase channels cannot cancel)")
@@ -386,7 +448,6 @@ def _check_clipping(samples: np.ndarray, full_scale: float | None, label: str,
 _FS_PATTERN = re.compile(
     r"(?:\bfs|sample[\s_-]*rate|sampling[\s_-]*(?:rate|frequency)|\brate)\s*[=:]?\s*"
     r"([0-9]+(?:[.,][0-9]+)?)\s*(k?hz)?", re.IGNORECASE)
-_NUMBER = re.compile(r"^[+-]?(\d+([.,]\d*)?|[.,]\d+)([eE][+-]?\d+)?$")
 
 
 def _sample_rate_in(text: str) -> float | None:
@@ -412,15 +473,97 @@ def _to_number(cell: str, decimal_comma: bool) -> float:
     return float(text)
 
 
-def _read_csv(path: Path, label: str) -> Recording:
-    raw = path.read_bytes()
+def _check_csv_size(raw: bytes, label: str) -> None:
+    """Refuse a CSV of too many lines, or with a line too long, before any of it is parsed."""
+    lines = raw.count(b"\n") + (0 if raw.endswith(b"\n") else 1)
+    if lines > MAX_CSV_LINES:
+        raise RecordingError(
+            f"{label} has {lines} lines; refused (the limit is {MAX_CSV_LINES}): trim it to "
+            "the tap and its ring-down, or export it as WAV")
+    if len(raw) <= MAX_CSV_LINE_BYTES:
+        return
+    ends = np.flatnonzero(np.frombuffer(raw, dtype=np.uint8) == ord("\n"))
+    lengths = np.diff(np.concatenate([[-1], ends, [len(raw)]])) - 1
+    too_long = np.flatnonzero(lengths > MAX_CSV_LINE_BYTES)
+    if too_long.size:
+        raise RecordingError(
+            f"{label}, line {int(too_long[0]) + 1}: longer than {MAX_CSV_LINE_BYTES} bytes; "
+            "a recording CSV has a few numbers a line")
+
+
+def _lines(text: str):
+    """The lines of a text without their line ends, one at a time (no copy of the whole)."""
+    start, size = 0, len(text)
+    while start < size:
+        end = text.find("\n", start)
+        if end < 0:
+            end = size
+        yield text[start:end]
+        start = end + 1
+
+
+def _csv_rows(text: str, skip: int, delimiter: str | None, decimal_comma: bool, width: int,
+              label: str) -> np.ndarray:
+    """The numbers below the header: ``numpy.loadtxt``, or line by line to say where it fails.
+
+    A failure is reported by line and column only; the cell's text is not quoted.
+    """
+    body = text.replace(",", ".") if decimal_comma else text
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            return np.loadtxt(_lines(body), dtype=float, delimiter=delimiter,
+                              comments="#", skiprows=skip, usecols=range(width), ndmin=2,
+                              quotechar='"')
+    except (ValueError, IndexError):
+        pass  # found again below, with its line and column
+    rows: list[list[float]] = []
+    for number, line in enumerate(_lines(text), start=1):
+        line = line.strip()
+        if number <= skip or not line or line.startswith("#"):
+            continue
+        cells = _split(line, delimiter)
+        while cells and cells[-1] == "":
+            cells.pop()
+        if len(cells) < width:
+            raise RecordingError(
+                f"{label}, line {number}: expected {width} columns, found {len(cells)}")
+        row: list[float] = []
+        for column, cell in enumerate(cells[:width], start=1):
+            try:
+                row.append(_to_number(cell, decimal_comma))
+            except ValueError:
+                raise RecordingError(
+                    f"{label}, line {number}, column {column}: not a number; a recording CSV "
+                    "holds numbers only, below an optional header line") from None
+        rows.append(row)
+    return np.asarray(rows, dtype=float).reshape(-1, width)
+
+
+def _read_csv(path: Path, label: str, shown: str) -> Recording:
+    try:
+        with path.open("rb") as handle:  # a read of n bytes reserves n: ask for the size
+            size = os.fstat(handle.fileno()).st_size
+            raw = handle.read(min(size, MAX_RECORDING_BYTES) + 1)
+    except OSError as error:
+        raise RecordingError(
+            f"{label} cannot be read: {error.strerror or 'input error'}") from None
+    if len(raw) > MAX_RECORDING_BYTES:
+        raise RecordingError(f"{label} is over {MAX_RECORDING_BYTES / 1e6:.0f} MB; refused")
+    _check_csv_size(raw, label)
     try:
         text = raw.decode("utf-8-sig")
     except UnicodeDecodeError:
         text = raw.decode("latin-1")
-    lines = [(number, line.strip()) for number, line in enumerate(io.StringIO(text), start=1)]
-    comments = [line.lstrip("#").strip() for _, line in lines if line.startswith("#")]
-    content = [(number, line) for number, line in lines if line and not line.startswith("#")]
+    del raw
+    comments: list[str] = []
+    content: list[tuple[int, str]] = []  # the first two lines that are not comments
+    for number, line in enumerate(_lines(text), start=1):
+        line = line.strip()
+        if line.startswith("#"):
+            comments.append(line.lstrip("#").strip())
+        elif line and len(content) < 2:
+            content.append((number, line))
     if not content:
         raise RecordingError(f"{label} is empty (no data rows)")
 
@@ -442,32 +585,22 @@ def _read_csv(path: Path, label: str) -> Recording:
     decimal_comma = delimiter in (";", "\t", None)
 
     header: list[str] | None = None
+    cells = _split(sample, delimiter)
+    while cells and cells[-1] == "":
+        cells.pop()
+    width = len(cells)
     if has_header:
         header = _split(first, delimiter) if delimiter is None or delimiter in first else [first]
-        columns = len(_split(sample, delimiter))
-        if len(header) != columns:  # e.g. "Time (s) Signal" split at its spaces
-            header = [first] + [""] * (columns - 1)
-        content = content[1:]
-
-    rows: list[list[float]] = []
-    width: int | None = len(header) if header else None
-    for number, line in content:
-        cells = [c for c in _split(line, delimiter)]
-        while cells and cells[-1] == "":
-            cells.pop()
-        if width is None:
-            width = len(cells)
-        if len(cells) < width:
-            raise RecordingError(
-                f"{label}, line {number}: expected {width} columns, found {len(cells)}")
-        try:
-            rows.append([_to_number(c, decimal_comma) for c in cells[:width]])
-        except ValueError:
-            bad = next(c for c in cells[:width] if not _NUMBER.match(c.strip().strip('"')))
-            raise RecordingError(
-                f"{label}, line {number}: '{bad}' is not a number; a recording CSV holds "
-                "numbers only, below an optional header line") from None
-    data = np.asarray(rows, dtype=float)
+        if len(header) != width:  # e.g. "Time (s) Signal" split at its spaces
+            header = [first] + [""] * (width - 1)
+    if width == 0:
+        raise RecordingError(f"{label}, line {content[1 if has_header else 0][0]}: no numbers")
+    if width > MAX_CSV_COLUMNS:
+        raise RecordingError(
+            f"{label}, line {content[1 if has_header else 0][0]}: {width} columns; a recording "
+            f"CSV has at most {MAX_CSV_COLUMNS} (time or frequency, then the signals or levels)")
+    data = _csv_rows(text, content[0][0] if has_header else 0, delimiter, decimal_comma,
+                     width, label)
     if not np.all(np.isfinite(data)):
         raise RecordingError(f"{label} contains values that are not numbers (NaN or infinity)")
 
@@ -478,7 +611,7 @@ def _read_csv(path: Path, label: str) -> Recording:
             raise RecordingError(
                 f"{label} has a single column but no sample rate: give it in the header, "
                 "e.g. 'signal (fs=48000)', or add a time column in seconds")
-        return _csv_time_series(path, label, data[:, 0:1], rate, "CSV time series (one column)")
+        return _csv_time_series(shown, label, data[:, 0:1], rate, "CSV time series (one column)")
 
     kind = _csv_kind(names, data[:, 0])
     if kind is None:
@@ -495,8 +628,8 @@ def _read_csv(path: Path, label: str) -> Recording:
             raise RecordingError(
                 f"{label}: the time column is not evenly spaced (steps from "
                 f"{steps.min():.6g} to {steps.max():.6g} s); resample it evenly")
-        return _csv_time_series(path, label, data[:, 1:], 1.0 / step, "CSV time series")
-    return _csv_spectrum(path, label, data, names)
+        return _csv_time_series(shown, label, data[:, 1:], 1.0 / step, "CSV time series")
+    return _csv_spectrum(shown, label, data, names)
 
 
 def _csv_kind(names: list[str], first: np.ndarray) -> str | None:
@@ -512,18 +645,18 @@ def _csv_kind(names: list[str], first: np.ndarray) -> str | None:
     return None
 
 
-def _csv_time_series(path: Path, label: str, columns: np.ndarray, rate: float,
+def _csv_time_series(shown: str, label: str, columns: np.ndarray, rate: float,
                      encoding: str) -> Recording:
     samples, channel, channels, notes = _pick_channel(columns, "signal column")
     _check_length(samples, rate, label)
     if float(np.ptp(samples)) == 0.0:
         raise RecordingError(f"{label} is silent: every sample has the same value")
     _check_clipping(samples, full_scale=None, label=label, sample_rate=rate)
-    return Recording(source=str(path), samples=samples, sample_rate=rate, channel=channel,
+    return Recording(source=shown, samples=samples, sample_rate=rate, channel=channel,
                      channels=channels, encoding=encoding, notes=notes)
 
 
-def _csv_spectrum(path: Path, label: str, data: np.ndarray, names: list[str]) -> Recording:
+def _csv_spectrum(shown: str, label: str, data: np.ndarray, names: list[str]) -> Recording:
     frequencies, values = data[:, 0], data[:, 1]
     notes: tuple[str, ...] = ()
     if data.shape[1] > 2:
@@ -543,7 +676,7 @@ def _csv_spectrum(path: Path, label: str, data: np.ndarray, names: list[str]) ->
     else:
         if np.any(values < 0):
             raise RecordingError(
-                f"{label}: the level column '{names[1]}' has negative values but its header "
+                f"{label}: the level column (column 2) has negative values but its header "
                 "does not say dB; name it e.g. 'Level (dB)'")
         floor = max(float(values.max()) * 1e-12, np.finfo(float).tiny)
         power_like = re.search(r"power|psd|\^2|²", level_name) is not None
@@ -551,7 +684,7 @@ def _csv_spectrum(path: Path, label: str, data: np.ndarray, names: list[str]) ->
         encoding = "CSV spectrum (power)" if power_like else "CSV spectrum (magnitude)"
     if float(np.ptp(levels)) == 0.0:
         raise RecordingError(f"{label} is silent: the spectrum is flat")
-    return Recording(source=str(path), frequencies_hz=frequencies, levels_db=levels,
+    return Recording(source=shown, frequencies_hz=frequencies, levels_db=levels,
                      encoding=encoding, notes=notes)
 
 

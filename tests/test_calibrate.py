@@ -8,7 +8,9 @@ mode left out, a room mode the model does not know, and mains hum at 100 and 200
 from __future__ import annotations
 
 import dataclasses
+import json
 import math
+import os
 
 import numpy as np
 import pytest
@@ -20,6 +22,7 @@ from auditor.calibrate import (
     calibrate_panel,
     calibrate_schedule,
     calibration_to_dict,
+    format_uncertainty,
     half_power_loss_factor,
     hum_lines,
     match_peaks,
@@ -224,6 +227,8 @@ def test_warp_and_weft_tensions_fitted_separately():
     assert cal.tension == pytest.approx(520.0, rel=0.02)
     assert cal.tension_y == pytest.approx(170.0, rel=0.02)
     assert cal.uncertainty is not None and cal.uncertainty_y is not None
+    assert format_uncertainty(cal) == (f"±{100 * cal.uncertainty:.1f} % / "
+                                       f"±{100 * cal.uncertainty_y:.1f} %")
 
 
 def test_areal_density_fit():
@@ -289,6 +294,8 @@ def test_dict_and_apply(tmp_path):
         assert key in as_dict
     assert as_dict["matched"][0].keys() >= {"peak_hz", "mode", "predicted_hz",
                                             "residual_percent"}
+    assert format_uncertainty(cal) == f"±{100 * cal.uncertainty:.1f} %"
+    assert cal.recording == "synthetic.wav"
     calibrated = apply_calibration(PANEL, cal)
     assert calibrated.tension_x == cal.tension and calibrated.tension_y == cal.tension_y
     assert calibrated.width == PANEL.width
@@ -307,3 +314,174 @@ def test_clear_errors():
         calibrate_panel(dataclasses.replace(PANEL, tension_x=0.0), noise, modes_of)
     with pytest.raises(CalibrationError, match="unknown fit"):
         calibrate_panel(PANEL, noise, modes_of, fit="stiffness")
+
+
+# ------------------------------------------------------ recordings stay in the schedule's folder
+
+SECRET = "root:x:0:0:secret-token-7f3a9c:/root:/bin/bash\n"
+
+
+def _project(tmp_path):
+    """A schedule folder with a recording inside; a recording and a secret file outside."""
+    modes_of = ideal_membrane()
+    rec, _, _ = synthesise(modes_of, _true(), seed=7)
+    folder = tmp_path / "project"
+    (folder / "taps").mkdir(parents=True)
+    write_wav(folder / "taps" / "c01.wav", rec.samples, RATE, bits=24)
+    outside = tmp_path / "elsewhere"
+    outside.mkdir()
+    write_wav(outside / "c01.wav", rec.samples, RATE, bits=24)
+    (outside / "accounts.csv").write_text(SECRET * 40)
+    return modes_of, folder, outside
+
+
+def _schedule(file: str, cells) -> Schedule:
+    panels = tuple(dataclasses.replace(PANEL, panel=f"C-{k:02d}", tap_test=cell,
+                                       source=SourceRef(file, "Panels", 7 + k))
+                   for k, cell in enumerate(cells))
+    return Schedule(panels=panels, project=Project(line_frequency=50.0))
+
+
+def _no_leak(text: str, tmp_path) -> None:
+    assert str(tmp_path) not in text and os.path.realpath(tmp_path) not in text
+    assert "secret-token" not in text and "root:x" not in text and "/bin/bash" not in text
+
+
+@pytest.mark.skipif(not hasattr(os, "symlink"), reason="needs symbolic links")
+def test_a_recording_outside_the_schedule_folder_is_not_opened(tmp_path):
+    modes_of, folder, outside = _project(tmp_path)
+    os.symlink(outside / "c01.wav", folder / "taps" / "link.wav")  # a link leading out
+    os.symlink(folder / "taps" / "c01.wav", folder / "taps" / "inner.wav")  # one that stays
+    outside_cells = [str(outside / "c01.wav"), "../elsewhere/c01.wav",
+                     "taps/../../elsewhere/accounts.csv", str(outside / "accounts.csv"),
+                     "taps/link.wav", "..\\elsewhere\\c01.wav"]
+    schedule = _schedule(str(folder / "schedule.xlsx"),
+                         outside_cells + ["taps/c01.wav", "taps/inner.wav"])
+    calibrations, problems = calibrate_schedule(schedule, modes_of)
+    # the two inside it are used; the six others (valid recordings among them) are not
+    assert [c.panel for c in calibrations] == ["C-06", "C-07"]
+    assert [c.recording for c in calibrations] == ["taps/c01.wav", "taps/inner.wav"]
+    assert [p.record for p in problems] == [f"C-{k:02d}" for k in range(6)]
+    for problem, cell in zip(problems, outside_cells):
+        assert problem.severity == "warning" and problem.column == "Tap test"
+        assert problem.row is not None and problem.text == cell
+        assert "must be inside the schedule's folder" in problem.message
+        _no_leak(problem.message, tmp_path)
+
+    # the user's explicit choice opens them; the secret file is still never quoted, and no
+    # output names a recording by an absolute path
+    calibrations, problems = calibrate_schedule(schedule, modes_of, allow_outside=True)
+    assert [c.panel for c in calibrations] == ["C-00", "C-01", "C-04", "C-05", "C-06", "C-07"]
+    assert calibrations[0].recording == "c01.wav"
+    assert calibrations[1].recording == "../elsewhere/c01.wav"
+    assert calibrations[0].tension == pytest.approx(PANEL.tension_x * TRUE_SCALE, rel=0.02)
+    assert [p.severity for p in problems] == ["warning", "warning"]
+    for problem in problems:
+        assert "line" in problem.message and "accounts.csv" in problem.message
+        _no_leak(problem.message, tmp_path)
+    _no_leak(json.dumps([calibration_to_dict(c) for c in calibrations]), tmp_path)
+
+
+def test_the_schedule_folder_comes_from_the_caller(tmp_path, monkeypatch):
+    # the panels name their file alone (as the outputs show it); the caller says where it is
+    modes_of, folder, _ = _project(tmp_path)
+    monkeypatch.chdir(tmp_path)  # the working folder is not the schedule's
+    schedule = _schedule("schedule.xlsx", ["taps/c01.wav", "../elsewhere/c01.wav"])
+    calibrations, problems = calibrate_schedule(
+        schedule, modes_of, folders={"schedule.xlsx": folder})
+    assert [c.panel for c in calibrations] == ["C-00"]
+    assert [(p.record, p.severity, p.file) for p in problems] == [
+        ("C-01", "warning", "schedule.xlsx")]
+    same, _ = calibrate_schedule(schedule, modes_of, base_dir=folder)
+    assert [c.panel for c in same] == ["C-00"]
+    unknown, problems = calibrate_schedule(schedule, modes_of, folders={})
+    assert unknown == () and all("not known" in p.message for p in problems)
+
+
+@pytest.mark.skipif(not hasattr(os, "symlink"), reason="needs symbolic links")
+def test_a_schedule_read_from_its_file_finds_its_recordings_beside_it(tmp_path, monkeypatch):
+    # read_schedule names the file alone in its records and keeps where it read it in
+    # memory; the recordings are found (and confined) there, whatever the working folder
+    from auditor.schedule import read_schedule
+
+    modes_of, folder, outside = _project(tmp_path)
+    os.symlink(outside / "accounts.csv", folder / "taps" / "notes.csv")
+    (folder / "schedule.csv").write_text(
+        "Panel,Shape,Width (mm),Length (mm),Material,Areal density (kg/m2),Tension (N/m),"
+        "Tap test\n"
+        "C-01,rectangle,700,500,film,0.25,400,taps/c01.wav\n"
+        "C-02,rectangle,700,500,film,0.25,400,taps/notes.csv\n")
+    work = tmp_path / "work"
+    work.mkdir()
+    monkeypatch.chdir(work)
+    schedule = read_schedule([os.path.join("..", "project", "schedule.csv")])
+    assert [p.panel for p in schedule.panels] == ["C-01", "C-02"]
+    calibrations, problems = calibrate_schedule(schedule, modes_of)
+    assert [(c.panel, c.recording) for c in calibrations] == [("C-01", "taps/c01.wav")]
+    assert calibrations[0].tension == pytest.approx(PANEL.tension_x * TRUE_SCALE, rel=0.02)
+    (problem,) = problems
+    assert (problem.record, problem.severity, problem.row) == ("C-02", "warning", 3)
+    _no_leak(problem.message, tmp_path)
+
+
+# ---------------------------------------------------------- too few peaks for an uncertainty
+
+def test_one_peak_calibrates_end_to_end_and_every_field_formats(tmp_path):
+    # One peak, the fundamental (1,1): with f11 = ½ √(T/ρs) √(1/Lx² + 1/Ly²) (rectangular
+    # membrane with fixed edges: Rayleigh, The Theory of Sound, vol. 1, §194), the fitted
+    # tension is T_sched·(f_measured/f_scheduled)²; its loss factor is η = Δf/f (half-power
+    # bandwidth: Beranek & Vér, Noise and Vibration Control Engineering, 2nd ed., 2006).
+    modes_of = ideal_membrane()
+    true = _true()
+    f11 = 0.5 * math.sqrt(true.tension_x / true.areal_density) * math.sqrt(
+        1 / true.width**2 + 1 / true.length**2)
+    x = synthesise_tap_test([f11], [0.02], sample_rate=RATE, duration=1.5, noise=0.001)
+    (tmp_path / "taps").mkdir()
+    write_wav(tmp_path / "taps" / "one.wav", x, RATE, bits=16)
+    schedule = _schedule(str(tmp_path / "schedule.xlsx"), ["taps/one.wav"])
+    (cal,), problems = calibrate_schedule(schedule, modes_of)
+    assert problems == ()
+    assert [m.mode for m in cal.matched] == ["(1,1)"]
+    assert cal.tension == pytest.approx(true.tension_x, rel=0.01)
+    assert cal.loss_factors[0][1] == pytest.approx(0.02, rel=0.2)
+    assert cal.uncertainty is None and cal.uncertainty_y is None
+    assert format_uncertainty(cal) == "n/a (1 matched peak)"
+    assert any("no uncertainty" in note for note in cal.notes)
+    # a terminal table row of the calibration, every column formatted
+    row = [cal.panel, f"{cal.scheduled_tension:.0f}", f"{cal.tension:.0f}",
+           f"{100 * cal.tension_change:+.1f} %", format_uncertainty(cal),
+           str(len(cal.peaks_hz)), str(len(cal.matched)), f"{cal.residual:.2f} %",
+           f"{cal.residual_cents:.1f}", cal.recording]
+    assert row[3] == f"{100 * (TRUE_SCALE - 1):+.1f} %" and row[-1] == "taps/one.wav"
+    # only the documented fields may be None; every number is finite; JSON has null
+    nullable = {"uncertainty", "uncertainty_y"}
+    for field in dataclasses.fields(cal):
+        value = getattr(cal, field.name)
+        if isinstance(value, float):
+            assert math.isfinite(value), field.name
+        else:
+            assert value is not None or field.name in nullable, field.name
+    document = json.loads(json.dumps(calibration_to_dict(cal), allow_nan=False))
+    assert document["uncertainty"] is None and document["uncertainty_y"] is None
+    assert document["recording"] == "taps/one.wav"
+
+
+def test_two_peaks_for_both_tensions_leave_no_uncertainty():
+    # (1,1) and (2,1) of the rectangle formula above fix Tx and Ty exactly: no residual
+    # degree of freedom, so no standard error (Numerical Recipes, 3rd ed., §15.4: the
+    # variance estimate needs N − M ≥ 1)
+    fabric = dataclasses.replace(PANEL, material="fabric", tension_x=600.0, tension_y=150.0)
+    true = dataclasses.replace(fabric, tension_x=520.0, tension_y=170.0)
+    modes_of = ideal_membrane()
+    wanted = {m.label: m.frequency_hz for m in modes_of(true)}
+    x = synthesise_tap_test([wanted["(1,1)"], wanted["(2,1)"]], [0.02, 0.02],
+                            sample_rate=RATE, duration=1.5, noise=0.001)
+    cal = calibrate_panel(fabric, Recording(source="/site/taps/two.wav", samples=x,
+                                            sample_rate=RATE),
+                          modes_of, fit="tension_ratio")
+    assert sorted(m.mode for m in cal.matched) == ["(1,1)", "(2,1)"]
+    assert cal.tension == pytest.approx(520.0, rel=0.02)
+    assert cal.tension_y == pytest.approx(170.0, rel=0.02)
+    assert cal.uncertainty is None and cal.uncertainty_y is None
+    assert format_uncertainty(cal) == "n/a (2 matched peaks)"
+    assert cal.recording == "two.wav"  # an absolute source is named by its file alone

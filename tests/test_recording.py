@@ -2,14 +2,18 @@
 
 from __future__ import annotations
 
+import os
+import struct
 import wave
 
 import numpy as np
 import pytest
 from scipy.signal import hilbert
 
+from auditor import recording
 from auditor.recording import (
     CLIP_RUN_SAMPLES,
+    MAX_RECORDING_BYTES,
     MIN_DURATION_S,
     MIN_SAMPLES,
     Recording,
@@ -257,8 +261,9 @@ def test_csv_problems_are_named(tmp_path):
     body = "\n".join(f"{a:.8f},{b:.9f}" for a, b in zip(t, x))
     with pytest.raises(RecordingError, match="not evenly spaced"):
         read_recording(_write(tmp_path / "uneven.csv", "time,signal\n" + body))
-    with pytest.raises(RecordingError, match=r"line 3: 'abc' is not a number"):
+    with pytest.raises(RecordingError, match=r"line 3, column 1: not a number") as info:
         read_recording(_write(tmp_path / "bad.csv", "time,signal\n0,1\nabc,2\n"))
+    assert "abc" not in str(info.value)  # where, never what: the cell is not quoted
     with pytest.raises(RecordingError, match="empty"):
         read_recording(_write(tmp_path / "comments.csv", "# nothing here\n\n"))
     flat = "\n".join("0.25" for _ in range(4000))
@@ -280,3 +285,107 @@ def test_recording_holds_one_form_only():
     assert rec.duration == pytest.approx(0.256)
     with pytest.raises(ValueError):
         rec.samples[0] = 2.0  # read-only
+
+
+# ------------------------------------------------------------------ never quote, always bound
+
+PASSWD_LIKE = ("root:x:0:0:root:/root:/bin/bash\n"
+               "daemon:x:1:1:daemon:/usr/sbin:/usr/sbin/nologin\n"
+               "secret-token-7f3a9c\n")
+
+
+def _assert_quotes_nothing(message: str, text: str) -> None:
+    for line in text.splitlines():
+        for word in line.replace(":", " ").replace("/", " ").split():
+            if len(word) >= 4:
+                assert word not in message, (word, message)
+
+
+def test_messages_say_where_not_what(tmp_path):
+    # a text file that is no recording: the message names line and column, quotes nothing
+    path = _write(tmp_path / "accounts.csv", PASSWD_LIKE)
+    with pytest.raises(RecordingError, match=r"line \d+(, column \d+)?: ") as info:
+        read_recording(path)
+    _assert_quotes_nothing(str(info.value), PASSWD_LIKE)
+    headerless = _write(tmp_path / "numbers.csv", "1,2\n3,secret-token-7f3a9c\n")
+    with pytest.raises(RecordingError, match="line 2, column 2: not a number") as info:
+        read_recording(headerless)
+    assert "secret" not in str(info.value)
+    # a level column whose header does not say dB: named by its position, not its text
+    f = np.linspace(10, 500, 64)
+    body = "\n".join(f"{a},{-1.0 - a / 100}" for a in f)
+    with pytest.raises(RecordingError, match="column 2") as info:
+        read_recording(_write(tmp_path / "neg.csv", "Frequency (Hz),Zanzibar level\n" + body))
+    assert "zanzibar" not in str(info.value).lower()
+
+
+def test_a_damaged_wav_is_described_not_quoted(tmp_path):
+    # scipy's reader names a RIFF file's form type in its message ("RIFF form type is
+    # b'QZXV'"); ours says what is wrong without any bytes of the file
+    odd_form = tmp_path / "odd.wav"
+    odd_form.write_bytes(b"RIFF" + struct.pack("<I", 12) + b"QZXV" + b"QZXV" * 3)
+    # a data chunk with no fmt chunk before it, which scipy's parser does not expect
+    no_format = tmp_path / "no_format.wav"
+    no_format.write_bytes(b"RIFF" + struct.pack("<I", 20) + b"WAVE" + b"data"
+                          + struct.pack("<I", 8) + b"QZXVQZXV")
+    for path in (odd_form, no_format):
+        with pytest.raises(RecordingError, match="not a readable WAV file") as info:
+            read_recording(path)
+        assert "QZXV" not in str(info.value) and "b'" not in str(info.value)
+
+
+def test_messages_name_the_file_as_given_never_its_folder(tmp_path):
+    path = write_wav(tmp_path / "silent.wav", np.zeros(RATE), RATE, bits=16)
+    with pytest.raises(RecordingError) as info:
+        read_recording(path)
+    assert "'silent.wav'" in str(info.value) and str(tmp_path) not in str(info.value)
+    with pytest.raises(RecordingError, match="'taps/silent.wav'"):
+        read_recording(path, name="taps/silent.wav")
+    rec = read_recording(write_wav(tmp_path / "ok.wav", _ring(), RATE), name="taps/ok.wav")
+    assert rec.source == "taps/ok.wav"
+    assert read_recording(tmp_path / "ok.wav").source == "ok.wav"
+
+
+def test_a_file_over_the_size_limit_is_refused_before_reading(tmp_path):
+    # a sparse file one byte over the limit: refused from its size alone, at once
+    path = tmp_path / "huge.wav"
+    with path.open("wb") as handle:
+        handle.write(b"RIFF")
+        handle.truncate(MAX_RECORDING_BYTES + 1)
+    with pytest.raises(RecordingError, match="refused"):
+        read_recording(path)
+
+
+def test_csv_line_count_line_length_and_columns_are_bounded(tmp_path, monkeypatch):
+    x = _ring(0.4)
+    body = "\n".join(f"{b:.9f}" for b in x)
+    path = _write(tmp_path / "long.csv", "signal (fs=8000)\n" + body)
+    monkeypatch.setattr(recording, "MAX_CSV_LINES", x.size)  # one line short of the file
+    with pytest.raises(RecordingError, match=f"{x.size + 1} lines; refused"):
+        read_recording(path)
+    monkeypatch.setattr(recording, "MAX_CSV_LINES", x.size + 1)
+    assert read_recording(path).samples.size == x.size
+    wide = _write(tmp_path / "wide.csv", "0," * 3000 + "1\n" + "1,2\n" * 10)
+    with pytest.raises(RecordingError, match="line 1: longer than 4096 bytes"):
+        read_recording(wide)
+    many = _write(tmp_path / "many.csv", "\n".join(",".join(["1"] * 20) for _ in range(50)))
+    with pytest.raises(RecordingError, match="20 columns"):
+        read_recording(many)
+
+
+def test_a_time_series_over_the_sample_limit_is_refused(tmp_path, monkeypatch):
+    path = write_wav(tmp_path / "long.wav", _ring(0.6), RATE, bits=16)
+    monkeypatch.setattr(recording, "MAX_SAMPLES", 4000)
+    with pytest.raises(RecordingError, match="too long: 4800 samples"):
+        read_recording(path)
+
+
+@pytest.mark.skipif(not hasattr(os, "mkfifo"), reason="named pipes are POSIX")
+def test_a_pipe_is_not_opened(tmp_path):
+    # opening a pipe with no writer would block forever; it is refused from its type
+    pipe = tmp_path / "tap.wav"
+    os.mkfifo(pipe)
+    with pytest.raises(RecordingError, match="not a regular file"):
+        read_recording(pipe)
+    with pytest.raises(RecordingError, match="is a folder"):
+        read_recording(tmp_path)

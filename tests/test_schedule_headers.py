@@ -94,3 +94,18 @@ def test_words_and_suggestions():
     assert match_word("sealed cavity", "plenum_side") == ("sealed", None)
     assert match_word("xyzzy", "kind") == (None, None)
     assert suggest_header("Tenson", "panels") == "tension"
+
+
+def test_isolator_headers():
+    # the equipment sheet's mount columns, by the names the trade gives them (common practice)
+    for header, field, unit in (("Isolator deflection (mm)", "isolator_deflection", "mm"),
+                                ("Static deflection [in]", "isolator_deflection", "in"),
+                                ("Mount deflection", "isolator_deflection", None),
+                                ("Isolator damping", "isolator_damping", None),
+                                ("Damping ratio (%)", "isolator_damping", "%"),
+                                ("ζ", "isolator_damping", None)):
+        column, typed = match_header(header, "equipment")
+        assert (column.field, typed) == (field, unit), header
+    # on the panel sheet "damping" is still the panel's loss factor
+    assert match_header("Damping", "panels")[0].field == "loss_factor"
+    assert match_header("Static deflection", "panels") is None

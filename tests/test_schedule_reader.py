@@ -10,11 +10,13 @@ from pathlib import Path
 
 import openpyxl
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from typer.testing import CliRunner
 
 from auditor.cli import app
 from auditor.model import CircleCutout, PolygonCutout
-from auditor.schedule import read_schedule, schedule_to_dict, write_template
+from auditor.schedule import read_rows, read_schedule, schedule_to_dict, write_template
 from auditor.schedule import sources
 from auditor.schedule.serialise import typed_values
 
@@ -185,11 +187,25 @@ def test_progress_reaches_total(messy):
     assert all(a[0] <= b[0] for a, b in zip(calls, calls[1:]))
 
 
-def test_two_files_share_ids(messy):
-    s = read_schedule([messy, messy])
-    second = [p for p in s.problems if p.file == str(messy) and "already used" in p.message]
+def test_two_files_share_ids(messy, tmp_path):
+    # the same workbook in another folder: a different file of the same name
+    other = tmp_path / "copy" / "messy.xlsx"
+    other.parent.mkdir()
+    other.write_bytes(messy.read_bytes())
+    s = read_schedule([messy, other])
+    names = [f.path for f in s.files]
+    assert names == [f"{messy.parent.name}/messy.xlsx", "copy/messy.xlsx"]
+    second = [p for p in s.problems if p.file == "copy/messy.xlsx" and "already used" in p.message]
     assert len(s.panels) == 4  # the second file's panels all repeat the first's ids
     assert len(second) >= 4
+    assert f"in {names[0]}" in second[0].message
+
+
+def test_same_file_twice_is_read_once(messy):
+    s = read_schedule([messy, str(messy)])
+    assert len(s.files) == 1 and len(s.panels) == 4
+    assert [p.message for p in s.problems if p.row is None and p.sheet == ""] == [
+        "messy.xlsx is given more than once; it is read once"]
 
 
 def test_csv_with_bom_and_semicolons(tmp_path):
@@ -222,7 +238,9 @@ def test_csv_comma_and_multiline_cell_line_numbers(tmp_path):
                     encoding="utf-8")
     s = read_schedule(path)
     assert [e.equipment for e in s.equipment] == ["F1"]
-    assert [(p.row, p.column) for p in s.problems] == [(4, "rpm")]  # F2 starts on line 4
+    assert [(p.row, p.column) for p in s.rejected] == [(4, "rpm")]  # F2 starts on line 4
+    (note,) = [p for p in s.problems if p.severity == "warning"]
+    assert note.row is None and "no panel table was found in plant.csv" in note.message
 
 
 def test_polygon_geometry_checks(tmp_path):
@@ -245,13 +263,15 @@ def test_equipment_validation(tmp_path):
     path = tmp_path / "eq.csv"
     path.write_text(
         "Equipment,Kind,rpm min,rpm max,Poles,Slip,Frequency min,Frequency max,Velocity,"
-        "Wire diameter (mm)\n"
-        "V1,fan,1400,600,,,,,,\n"        # min above max (and no blades)
-        "M1,motor,,,5,,,,,\n"            # odd poles
-        "M2,motor,,,4,3 %,,,,\n"         # good
-        "T1,tone,,,,,40,63,,\n"          # good band
-        "W1,flow,,,,,,,12,2\n"           # good
-        "X1,whistle,,,,,,,,\n",          # unknown kind
+        "Wire diameter (mm),Line frequency\n"
+        "V1,fan,1400,600,,,,,,,\n"        # min above max (and no blades)
+        "M1,motor,,,5,,,,,,50\n"          # odd poles
+        "M2,motor,,,4,3 %,,,,,50\n"       # good
+        "T1,tone,,,,,40,63,,,\n"          # good band
+        "W1,flow,,,,,,,12,2,\n"           # good
+        "X1,whistle,,,,,,,,,\n"           # unknown kind
+        "M3,motor,,,4,,,,,,\n"            # no line frequency here or on a Project sheet
+        "M4,motor,900,1800,,,,,,,50\n",   # variable speed: its poles place the 2 f tone
         encoding="utf-8")
     s = read_schedule(path)
     assert [e.equipment for e in s.equipment] == ["M2", "T1", "W1"]
@@ -262,13 +282,23 @@ def test_equipment_validation(tmp_path):
     errors = sorted((p.row, p.column) for p in s.rejected)
     assert (2, "rpm min") in errors and (2, "Blades") not in errors
     assert (3, "Poles") in errors and (7, "Kind") in errors
+    assert (8, "line frequency") in errors and (9, "Poles") in errors
+    # the same motor with the Project sheet's line frequency is read
+    project = tmp_path / "project.csv"
+    project.write_text("Key,Value\nLine frequency,60 Hz\n", encoding="utf-8")
+    s = read_schedule([path, project])
+    assert "M3" in [e.equipment for e in s.equipment]
 
 
 def test_template_reads_back_clean(tmp_path):
     path = write_template(tmp_path / "blank.xlsx")
     s = read_schedule(path)
     assert s.panels == () and s.equipment == ()
-    assert s.problems == ()
+    # read (it is in ``files``), with a warning for each empty table and nothing else
+    assert [f.path for f in s.files] == ["blank.xlsx"]
+    assert [(p.sheet, p.row, p.severity) for p in s.problems] == [
+        ("Panels", 1, "warning"), ("Equipment", 1, "warning")]
+    assert all("no data rows" in p.message for p in s.problems)
     assert s.project.air_density == pytest.approx(1.204)
     wb = openpyxl.load_workbook(path)
     assert wb.sheetnames == ["Panels", "Equipment", "Project", "Read me"]
@@ -340,13 +370,13 @@ def test_bad_files_are_problems_not_crashes(tmp_path):
     with zipfile.ZipFile(bomb, "w", zipfile.ZIP_DEFLATED) as z:
         z.writestr("[Content_Types].xml", "<Types/>")
         z.writestr("xl/workbook.xml", "<workbook/>")
-        z.writestr("xl/worksheets/sheet1.xml", b"\0" * (201 * 10**6))
+        z.writestr("xl/worksheets/sheet1.xml", b"\0" * (51 * 10**6))
     s = read_schedule([not_zip, plain_zip, bomb, tmp_path / "missing.xlsx"])
     assert s.files == () and s.panels == ()
     messages = [p.message for p in s.problems]
     assert "not a zip archive" in messages[0]
     assert "not an Excel workbook" in messages[1]
-    assert re.search(r"archive expands to 20\d MB; refusing", messages[2])
+    assert re.search(r"archive expands to 51 MB; refusing \(the limit is 50 MB\)", messages[2])
     assert "does not exist" in messages[3]
     assert all(p.severity == "error" and p.row is None for p in s.problems)
 
@@ -372,3 +402,362 @@ def test_cli_check_and_template(tmp_path, messy):
     assert [p["panel"] for p in data["panels"]] == ["P1", "P2", "P5", "P9"]
     missing = runner.invoke(app, ["check", str(tmp_path / "nope.xlsx")])
     assert missing.exit_code == 2
+
+
+# --- hardening: every bad input a clear message ----------------------------------------------
+
+def _plain_workbook(path: Path, sheet_xml: str) -> dict[str, bytes]:
+    """The parts of a one-sheet workbook written by openpyxl, with the sheet replaced."""
+    wb = openpyxl.Workbook()
+    wb.active.title = "Panels"
+    wb.save(path)
+    with zipfile.ZipFile(path) as z:
+        parts = {n: z.read(n) for n in z.namelist()}
+    parts["xl/worksheets/sheet1.xml"] = sheet_xml.encode("utf-8")
+    return parts
+
+
+_SHEET = ('<worksheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main">'
+          "<sheetData>{rows}</sheetData>{tail}</worksheet>")
+
+
+def _row(r: int, *cells: str) -> str:
+    body = "".join(f'<c r="{chr(65 + k)}{r}" t="inlineStr"><is><t>{v}</t></is></c>'
+                   for k, v in enumerate(cells) if v)
+    return f'<row r="{r}">{body}</row>'
+
+
+def test_archive_refuses_what_a_spreadsheet_program_never_writes(tmp_path, monkeypatch):
+    from auditor.schedule import archive
+
+    parts = _plain_workbook(tmp_path / "base.xlsx", _SHEET.format(rows=_row(1, "Panel"), tail=""))
+
+    def write(name: str, compression=zipfile.ZIP_DEFLATED, twice: str = "") -> Path:
+        path = tmp_path / name
+        with zipfile.ZipFile(path, "w", compression) as z:
+            for part, data in parts.items():
+                z.writestr(part, data)
+            if twice:
+                with pytest.warns(UserWarning, match="Duplicate name"):
+                    z.writestr(twice, parts[twice])
+        return path
+
+    def refusal(path: Path) -> str:
+        with pytest.raises(sources.ScheduleFileError) as caught:
+            sources.load_file(path)
+        return str(caught.value)
+
+    # APPNOTE.TXT §4.4.5: Excel writes stored (0) or deflated (8) members only
+    assert "compression method" in refusal(write("bz.xlsx", zipfile.ZIP_BZIP2))
+    assert "names one part twice" in refusal(write("twice.xlsx", twice="xl/workbook.xml"))
+    # APPNOTE.TXT §4.4.4: bit 0 of the general purpose flags marks an encrypted member
+    data = bytearray(write("plain.xlsx").read_bytes())
+    for signature, offset in ((b"PK\x03\x04", 6), (b"PK\x01\x02", 8)):
+        for m in re.finditer(re.escape(signature), bytes(data)):
+            data[m.start() + offset] |= 1
+    locked = tmp_path / "locked.xlsx"
+    locked.write_bytes(bytes(data))
+    assert "encrypted" in refusal(locked)
+    # a document type declaration split across two inflated chunks is still found
+    monkeypatch.setattr(archive, "_CHUNK", 64)
+    padded = " " * 60 + '<!DOCTYPE x [<!ENTITY a "b">]>' + _SHEET.format(rows="", tail="")
+    parts["xl/worksheets/sheet1.xml"] = padded.encode()
+    assert "declares an XML document type" in refusal(write("doctype.xlsx"))
+
+
+@pytest.mark.parametrize(("bom", "codec", "warned"), [
+    # byte-order marks: The Unicode Standard 15.0, §23.8
+    (b"\xef\xbb\xbf", "utf-8", False),
+    (b"\xff\xfe", "utf-16-le", False),
+    (b"\xfe\xff", "utf-16-be", False),
+    (b"\xff\xfe\x00\x00", "utf-32-le", False),
+    (b"\x00\x00\xfe\xff", "utf-32-be", False),
+    (b"", "utf-8", False),
+    (b"", "utf-16-le", True),   # no mark: found by its zero bytes, and said so
+    (b"", "cp1252", True),      # not UTF-8: read as Windows-1252, and said so
+])
+def test_csv_encodings(tmp_path, bom, codec, warned):
+    path = tmp_path / "enc.csv"
+    text = "Panel,Zone,Width (m),Length (m),Areal density,Tension\r\nP1,Café Süd,1.2,0.6,0.25,900\r\n"
+    path.write_bytes(bom + text.encode(codec))
+    s = read_schedule(path)
+    assert [(p.panel, p.zone) for p in s.panels] == [("P1", "Café Süd")]
+    assert bool(s.problems) == warned
+    assert all(p.severity == "warning" and p.row is None for p in s.problems)
+
+
+def test_which_files_count_as_read(tmp_path):
+    panels = tmp_path / "panels.csv"
+    panels.write_text("Panel,Width,Length,Areal density,Tension\nP1,1,1,0.25,900\n",
+                      encoding="utf-8")
+    project = tmp_path / "project.csv"
+    project.write_text("Key,Value\nProject name,Test\n", encoding="utf-8")
+    plant = tmp_path / "plant.csv"
+    plant.write_text("Equipment,Kind,rpm,Blades\nF1,fan,1450,12\n", encoding="utf-8")
+    nothing = tmp_path / "nothing.csv"
+    nothing.write_text("Colour,Size\nred,big\n", encoding="utf-8")
+    empty = tmp_path / "empty.xlsx"
+    wb = openpyxl.Workbook()
+    wb.create_sheet("Read me")["A1"] = "for people"
+    wb.save(empty)
+
+    def names(schedule):
+        return [f.path for f in schedule.files]
+
+    # project facts alone: nothing to audit, so nothing was read
+    alone = read_schedule(project)
+    assert names(alone) == [] and alone.project.name == "Test"
+    assert "no panel table and no equipment table was found in project.csv (only project " \
+           "facts)" in alone.problems[0].message
+    # beside a panel table they count (their SHA-256 belongs on the cover)
+    assert names(read_schedule([panels, project])) == ["panels.csv", "project.csv"]
+    # a file with no table is not read, the others are; the sheets looked at are named
+    s = read_schedule([panels, nothing, empty])
+    assert names(s) == ["panels.csv"]
+    errors = {p.file: p.message for p in s.problems if p.severity == "error"}
+    assert "in nothing.csv (the file)" in errors["nothing.csv"]
+    assert ("in empty.xlsx (sheets looked at: 'Sheet'; skipped as notes for people: "
+            "'Read me')") in errors["empty.xlsx"]
+    # equipment alone is read, with a warning that there is no panel to audit
+    s = read_schedule(plant)
+    assert names(s) == ["plant.csv"] and len(s.equipment) == 1
+    assert [p.message for p in s.problems] == [
+        "no panel table was found in plant.csv (sheets looked at: 'plant'); there is no "
+        "panel to audit"]
+    runner = CliRunner()
+    assert runner.invoke(app, ["check", "--json", str(nothing)]).exit_code == 2
+    assert runner.invoke(app, ["check", "--json", str(plant)]).exit_code == 0
+
+
+def test_file_names_hold_no_folders(tmp_path, messy):
+    from auditor.schedule.inputs import display_names, input_location
+
+    s = read_schedule(messy)
+    assert [f.path for f in s.files] == ["messy.xlsx"]
+    assert {p.source.file for p in s.panels} == {"messy.xlsx"}
+    assert {p.file for p in s.problems} == {"messy.xlsx"}
+    assert input_location(s, "messy.xlsx") == messy.resolve()
+    assert input_location(s, "other.xlsx") is None
+    data = CliRunner().invoke(app, ["check", "--json", str(messy)]).stdout
+    assert str(messy.parent) not in data and json.loads(data)["files"][0] == {
+        "name": "messy.xlsx", "sha256": hashlib.sha256(messy.read_bytes()).hexdigest()}
+    assert display_names(["/a/x/s.xlsx", "/b/x/s.xlsx", "/c/t.csv", "/a/x/s.xlsx"]) == [
+        "a/x/s.xlsx", "b/x/s.xlsx", "t.csv", "a/x/s.xlsx"]
+    assert display_names(["/b/s.xlsx", "/a/b/s.xlsx"]) == ["b/s.xlsx", "a/b/s.xlsx"]
+
+
+def test_control_characters_are_removed_and_named(tmp_path):
+    from auditor.schedule.cells import clean_text
+
+    # W3C XML 1.0 §2.2: tab, line feed and carriage return are the only C0 characters allowed
+    assert clean_text("A\tB\nC") == ("A\tB\nC", False)
+    assert clean_text("A\r\nB\rC") == ("A\nB\nC", False)
+    assert clean_text("P\x07-1\x1b\x7f\x85\ud800") == ("P-1", True)
+    path = tmp_path / "ctl.xlsx"
+    sheet = _SHEET.format(rows=_row(1, "Panel", "Zone", "Width", "Length", "Areal density",
+                                    "Tension", "Remark")
+                          + _row(2, "P_x0007_1", "N_x001B_orth", "1", "1", "0.25", "900", "ok_x0008_"),
+                          tail="")
+    parts = _plain_workbook(path, sheet)
+    with zipfile.ZipFile(path, "w") as z:
+        for name, data in parts.items():
+            z.writestr(name, data)
+    s = read_schedule(path)
+    assert [(p.panel, p.zone) for p in s.panels] == [("P1", "North")]
+    warned = {(p.row, p.column, p.text) for p in s.problems if "control characters" in p.message}
+    assert warned == {(2, "Panel", "P1"), (2, "Zone", "North"), (2, "Remark", "ok")}
+    # outside any table a cell is named by its column letter
+    sheet = _SHEET.format(rows=_row(1, "Title_x0007_") + _row(2, "Panel", "Width", "Length",
+                                                            "Areal density", "Tension")
+                          + _row(3, "P1", "1", "1", "0.25", "900"), tail="")
+    parts = _plain_workbook(path, sheet)
+    with zipfile.ZipFile(path, "w") as z:
+        for name, data in parts.items():
+            z.writestr(name, data)
+    s = read_schedule(path)
+    assert [(p.row, p.column) for p in s.problems] == [(1, "column A")]
+
+
+def test_rejected_rows_count_each_row_once():
+    from auditor.model import RowProblem
+    from auditor.schedule.validate import rejected_rows
+
+    problems = [RowProblem("a.xlsx", "Panels", 5, "Width", "bad"),
+                RowProblem("a.xlsx", "Panels", 5, "Tension", "bad too"),
+                RowProblem("a.xlsx", "Panels", 6, "Zone", "odd", "warning"),
+                RowProblem("b.csv", "b", 5, "Width", "bad"),
+                RowProblem("c.xlsx", "", None, "", "not a workbook")]
+    assert rejected_rows(problems) == (("a.xlsx", "Panels", 5), ("b.csv", "b", 5))
+
+
+def test_isolator_columns(tmp_path):
+    path = tmp_path / "mounts.csv"
+    path.write_text(
+        "Equipment,Kind,rpm,Blades,Static deflection,Damping ratio\n"
+        "F1,fan,1450,12,25 mm,\n"      # a blank damping ratio takes the mount's usual value
+        "F2,fan,1450,12,1 in,5 %\n"    # NIST SP 811: 1 in = 0.0254 m exactly
+        "F3,fan,1450,12,,\n"           # blank: rigidly mounted
+        "F4,fan,1450,12,300,\n"        # 300 mm: softer than any isolator
+        "F5,fan,1450,12,25,1.5\n"      # a damping ratio is below 1
+        "F6,fan,1450,12,0,\n"          # zero deflection
+        "F7,fan,1450,12,,0.05\n",      # damping with no deflection: warned, rigid
+        encoding="utf-8")
+    s = read_schedule(path)
+    got = {e.equipment: (e.isolator_deflection, e.isolator_damping) for e in s.equipment}
+    assert got["F1"] == (pytest.approx(0.025), None)
+    assert got["F2"] == (pytest.approx(INCH), pytest.approx(0.05))
+    assert got["F3"] == (None, None) and set(got) == {"F1", "F2", "F3", "F7"}
+    errors = {(p.row, p.column): p.message for p in s.rejected}
+    assert "the limit is 0.2 m" in errors[(5, "Static deflection")]
+    assert "from above 0 to below 1" in errors[(6, "Damping ratio")]
+    assert "must be positive" in errors[(7, "Static deflection")]
+    assert any(p.row == 8 and p.severity == "warning" and "rigidly mounted" in p.message
+               for p in s.problems)
+
+
+def test_template_explains_the_isolator_columns(tmp_path):
+    wb = openpyxl.load_workbook(write_template(tmp_path / "t.xlsx"))
+    headers = [c.value for c in wb["Equipment"][1]]
+    assert "Isolator deflection (mm)" in headers and "Isolator damping" in headers
+    rows = {r[1]: r for r in wb["Read me"].iter_rows(values_only=True) if r and len(r) > 5}
+    assert "rigidly mounted" in rows["Isolator deflection"][5]
+    assert "report states" in rows["Isolator deflection"][5]
+    assert "static deflection" in rows["Isolator deflection"][4]
+    assert "damping ratio" in rows["Isolator damping"][4]
+
+
+def test_equipment_beyond_any_machine_is_rejected(tmp_path):
+    path = tmp_path / "odd.csv"
+    path.write_text("Equipment,Kind,rpm,Blades,Harmonics,Frequency\n"
+                    "F1,fan,1e6,12,,\n"       # a million rpm
+                    "F2,fan,1450,1000,,\n"    # a thousand blades
+                    "F3,fan,1450,12,1000,\n"  # a thousand harmonics
+                    "T1,tone,,,,50 kHz\n",    # ultrasound
+                    encoding="utf-8")
+    s = read_schedule(path)
+    assert s.equipment == ()
+    messages = {p.row: p.message for p in s.rejected}
+    assert "the limit is 1e+05 rpm" in messages[2]
+    assert "the limit is 200" in messages[3] and "the limit is 100" in messages[4]
+    assert "the limit is 2e+04 Hz" in messages[5]
+
+
+def test_merged_range_stops_at_the_last_row_with_data(tmp_path):
+    path = tmp_path / "merge.xlsx"
+    sheet = _SHEET.format(rows=_row(1, "Panel", "Zone", "Width", "Length", "Areal density",
+                                    "Tension") + _row(2, "P1", "North", "1", "1", "0.25", "900")
+                          + _row(3, "P2", "", "1", "1", "0.25", "900"),
+                          tail='<mergeCells count="1"><mergeCell ref="B2:B1048576"/></mergeCells>')
+    data_parts = _plain_workbook(path, sheet)
+    with zipfile.ZipFile(path, "w") as z:
+        for name, data in data_parts.items():
+            z.writestr(name, data)
+    data = path.read_bytes()
+    for rows in (sources._load_workbook(data, "merge.xlsx")[0].rows,
+                 sources._load_workbook_with_openpyxl(data, "merge.xlsx")[0].rows):
+        assert [r for r, _ in rows] == [1, 2, 3] and rows[2][1][1] == "North"
+
+
+def test_too_many_rows_is_one_clear_refusal(tmp_path, monkeypatch):
+    monkeypatch.setattr(sources, "MAX_ROWS", 5)
+    path = tmp_path / "long.csv"
+    path.write_text("Panel,Width\n" + "P,1\n" * 10, encoding="utf-8")
+    s = read_schedule(path)
+    assert s.files == ()
+    assert s.problems[0].message == ("long.csv: the file has more than 5 rows; refusing (split "
+                                     "the schedule into several files)")
+    book = tmp_path / "long.xlsx"
+    wb = openpyxl.Workbook()
+    wb.active.title = "Panels"
+    for k in range(10):
+        wb.active.append(["P", k])
+    wb.save(book)
+    data = book.read_bytes()
+    for load in (sources._load_workbook, sources._load_workbook_with_openpyxl):
+        with pytest.raises(sources.ScheduleFileError,
+                           match="long.xlsx: sheet 'Panels' has more than 5 rows; refusing"):
+            load(data, "long.xlsx")
+
+
+# --- one validation path: what the reader accepts, the physics and excitations take ----------
+
+_EQUIPMENT_VALUES = {
+    "rpm": ["1450", "0"], "rpm min": ["600"], "rpm max": ["1450", "600"], "blades": ["12"],
+    "vanes": ["7"], "cylinders": ["4"], "poles": ["4", "3"], "slip": ["3 %"],
+    "line frequency": ["50", "60"], "frequency": ["100"], "frequency min": ["40"],
+    "frequency max": ["63"], "velocity": ["12"], "wire diameter (mm)": ["2"],
+    "pulley diameter (mm)": ["200"], "belt length (mm)": ["1500"], "harmonics": ["3", "0"],
+    "isolator deflection (mm)": ["25", "250"], "isolator damping": ["0.05", "0"],
+}
+
+
+@pytest.fixture(scope="module")
+def standard_rules():
+    from auditor.rules import load_ruleset
+
+    return load_ruleset("standard")
+
+
+@settings(max_examples=400, deadline=None)
+@given(data=st.data())
+def test_every_equipment_row_accepted_has_its_tones(data, standard_rules):
+    """A row the reader accepts never makes ``auditor.excitation`` reject it (check and audit
+    agree): every kind with any subset of its fields, valid or not."""
+    from auditor.excitation import ExcitationError, excitations_for
+    from auditor.model import EQUIPMENT_KINDS
+
+    kind = data.draw(st.sampled_from(EQUIPMENT_KINDS))
+    chosen = {h: data.draw(st.sampled_from(v)) for h, v in _EQUIPMENT_VALUES.items()
+              if data.draw(st.booleans())}
+    schedule = read_rows(["Equipment", "Kind", *chosen], [["E1", kind, *chosen.values()]])
+    ruleset = standard_rules
+    for item in schedule.equipment:
+        try:
+            excitations_for(item, ruleset, project_line_frequency=None)
+        except ExcitationError as exc:  # pragma: no cover - the failure being tested for
+            pytest.fail(f"{kind} {chosen}: accepted by the reader, rejected by excitations: "
+                        f"{exc}")
+    assert schedule.equipment or schedule.rejected
+
+
+_COORDINATE = st.integers(0, 8).map(lambda k: k / 4)  # coarse: collinear and repeated points
+
+
+@settings(max_examples=300, deadline=None)
+@given(data=st.data())
+def test_every_shape_accepted_can_be_meshed(data):
+    """A panel the reader accepts never fails the physics' geometry test, and a panel it
+    rejects for its outline or cut-outs fails it (the same test, on the same outline)."""
+    from auditor.model import Panel, SourceRef
+    from auditor.physics.modes import GeometryError, basis_factory
+
+    shape = data.draw(st.sampled_from(["polygon", "rectangle", "circle"]))
+    points = data.draw(st.lists(st.tuples(_COORDINATE, _COORDINATE), min_size=3, max_size=6))
+    outline = "; ".join(f"{x:g},{y:g}" for x, y in points)
+    cuts = data.draw(st.lists(st.tuples(_COORDINATE, _COORDINATE,
+                                        st.sampled_from([0.1, 0.5, 1.0])), max_size=2))
+    cutouts = " | ".join(f"circle {x:g},{y:g},{d:g}" for x, y, d in cuts)
+    row = ["P1", shape, outline if shape == "polygon" else "", "1.5", "1", "1.2", cutouts,
+           "0.25", "900"]
+    schedule = read_rows(["Panel", "Shape", "Outline (m)", "Width", "Length", "Diameter",
+                          "Cut-outs (m)", "Areal density", "Tension"], [row])
+    geometry_rejected = any(p.column in ("Outline (m)", "Cut-outs (m)", "Width", "Diameter")
+                            for p in schedule.rejected)
+    if schedule.panels:
+        basis_factory(schedule.panels[0])  # raises GeometryError when it cannot be meshed
+        return
+    assert geometry_rejected, schedule.rejected
+    vertices = tuple(points)
+    if len(vertices) > 1 and vertices[0] == vertices[-1]:
+        vertices = vertices[:-1]  # as the reader takes a closed ring
+    from auditor.model import CircleCutout
+
+    panel = Panel(panel="P1", source=SourceRef("x", "x", 2), shape=shape,
+                  outline=vertices if shape == "polygon" else None,
+                  width=1.5 if shape == "rectangle" else None,
+                  length=1.0 if shape == "rectangle" else None,
+                  diameter=1.2 if shape == "circle" else None,
+                  cutouts=tuple(CircleCutout(x, y, d) for x, y, d in cuts),
+                  areal_density=0.25, tension_x=900.0, tension_y=900.0)
+    with pytest.raises(GeometryError):
+        basis_factory(panel)

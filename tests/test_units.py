@@ -196,3 +196,34 @@ def test_property_number_and_unit_spellings(key, number, space, pad):
 def test_property_nonsense_units_raise_unit_error(unit):
     with pytest.raises(UnitError):
         unit_factor(unit, "length")
+
+
+@pytest.mark.parametrize(
+    ("text", "default", "dimension", "expected"),
+    [
+        # isolator static deflection, as spring catalogues state it (NIST SP 811 B.9: the
+        # inch is exactly 0.0254 m); a bare number takes the column's default unit, mm
+        ("25 mm", "mm", "length", 0.025),
+        ("1 in", "mm", "length", INCH),
+        ("1\"", "mm", "length", INCH),
+        ("25", "mm", "length", 0.025),
+        # isolator damping ratio ζ: SI Brochure (9th ed., 2019) §5.4.7, 1 % = 0.01
+        ("5 %", "", "dimensionless", 0.05),
+        ("0.05", "", "dimensionless", 0.05),
+    ],
+)
+def test_isolator_quantities(text, default, dimension, expected):
+    assert parse_quantity(text, default, dimension) == pytest.approx(expected, rel=1e-12)
+
+
+@pytest.mark.parametrize("value", [float("nan"), float("inf"), float("-inf")])
+def test_a_number_cell_that_is_not_finite_is_refused(value):
+    # a workbook cell may hold a non-finite float (IEEE 754 NaN or infinity); no reading of
+    # a length may pass one on, in any unit
+    from auditor.schedule.cells import CellError, quantity_reader
+
+    for unit in ("m", "mm", "in"):
+        with pytest.raises(CellError, match="not a finite number"):
+            quantity_reader("length", unit)(value)
+        with pytest.raises(CellError, match="not a finite number"):
+            quantity_reader("length", unit)(str(value))

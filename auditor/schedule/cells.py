@@ -15,13 +15,21 @@ import re
 from typing import Any, Callable
 
 from auditor.model import CircleCutout, Cutout, PolygonCutout
+from auditor.schedule import vocabulary as vocab
 from auditor.schedule.vocabulary import match_word
 from auditor.units import UnitError, parse_number, split_number_unit, unit_factor
 
 __all__ = [
+    "MAX_CELL_CHARS",
     "CellError",
+    "column_reader",
+    "unreadable_header_reader",
+    "too_long_message",
+    "shortened",
     "UNCACHED_FORMULA",
     "cell_text",
+    "clean_text",
+    "column_letter",
     "is_blank",
     "quantity_reader",
     "count_reader",
@@ -31,6 +39,12 @@ __all__ = [
     "outline_reader",
     "cutouts_reader",
 ]
+
+
+#: Most characters a cell may hold: the most a spreadsheet program's cell holds (Microsoft,
+#: "Excel specifications and limits": 32 767). Longer text comes from no spreadsheet.
+MAX_CELL_CHARS = 32_767
+_SHOWN_CHARS = 60  # of a refused cell's text, in the problem
 
 
 class CellError(ValueError):
@@ -59,6 +73,52 @@ _SPREADSHEET_ERRORS = frozenset({
     "#DIV/0!", "#N/A", "#NAME?", "#NULL!", "#NUM!", "#REF!", "#VALUE!", "#GETTING_DATA",
     "#SPILL!", "#CALC!",
 })
+
+
+# Characters no output may carry: C0 controls other than tab and line feed (a carriage return
+# is read as a line feed), DEL, C1 controls, lone UTF-16 surrogates (from a "_xD800_" escape)
+# and the two non-characters XML 1.0 forbids (W3C XML 1.0, 5th edition, §2.2 "Char").
+_CONTROL = re.compile("[\x00-\x08\x0b-\x1f\x7f-\x9f\ud800-\udfff\ufffe\uffff]")
+
+
+def clean_text(text: str) -> tuple[str, bool]:
+    """Text with control characters removed; and whether any were removed.
+
+    Tabs and line breaks stay (a carriage return becomes a line feed, silently: it is how
+    some programs end lines inside a cell); every other control character, which no one
+    types on purpose and which would corrupt the XML, PDF and terminal outputs downstream,
+    is removed.
+
+    Parameters
+    ----------
+    text : str
+
+    Returns
+    -------
+    (str, bool)
+        The cleaned text, and True when a character other than a carriage return was
+        removed (the caller warns, naming the cell).
+
+    References
+    ----------
+    .. [1] W3C, *Extensible Markup Language (XML) 1.0*, 5th edition (2008), §2.2 "Char".
+    """
+    if text.isprintable():
+        return text, False
+    if "\r" in text:
+        text = text.replace("\r\n", "\n").replace("\r", "\n")
+    cleaned = _CONTROL.sub("", text)
+    return cleaned, len(cleaned) != len(text)
+
+
+def column_letter(index: int) -> str:
+    """Spreadsheet letters of a 0-based column index (0 → A, 25 → Z, 26 → AA)."""
+    letters = ""
+    index += 1
+    while index:
+        index, rest = divmod(index - 1, 26)
+        letters = chr(65 + rest) + letters
+    return letters
 
 
 def is_blank(value: Any) -> bool:
@@ -133,6 +193,8 @@ def quantity_reader(
     def read(value: Any) -> float:
         kind = type(value)
         if kind is float or kind is int:
+            if kind is float and not math.isfinite(value):
+                raise CellError(f"{cell_text(value)!r} is not a finite number")
             return value * factor
         if kind is str:
             try:
@@ -319,3 +381,47 @@ def cutouts_reader(unit: str) -> Callable[[Any], tuple[Cutout, ...]]:
         return tuple(out)
 
     return read
+
+
+def too_long_message(text: str) -> str:
+    """Why a cell longer than :data:`MAX_CELL_CHARS` is not read."""
+    return (f"the cell holds {len(text):,} characters, more than a spreadsheet cell can "
+            f"({MAX_CELL_CHARS:,}); it is not read")
+
+
+def shortened(text: str) -> str:
+    """The start of a refused cell's text, as a problem shows it."""
+    return text if len(text) <= _SHOWN_CHARS else text[:_SHOWN_CHARS] + "…"
+
+
+def unreadable_header_reader(header: str, message: str) -> Callable[[Any], Any]:
+    """A reader for a column whose header names an unknown unit: every cell is refused."""
+    def read(value: Any) -> Any:
+        raise CellError(f"the header {header!r} names a unit that is not known ({message})")
+
+    return read
+
+
+def column_reader(column: vocab.Column, unit: str | None,
+                  decimal_comma: bool) -> Callable[[Any], Any]:
+    """The cell reader of a column, its bare numbers in ``unit`` (else the column's default).
+
+    Raises
+    ------
+    auditor.units.UnitError
+        When the header's unit is not a unit of the column's dimension.
+    """
+    unit = unit if unit is not None else column.default_unit
+    if column.kind == "quantity":
+        return quantity_reader(column.dimension, unit, decimal_comma=decimal_comma)
+    if column.kind == "outline":
+        return outline_reader(unit)
+    if column.kind == "cutouts":
+        return cutouts_reader(unit)
+    if column.kind == "count":
+        return count_reader()
+    if column.kind == "word":
+        return word_reader(column.field, column.name)
+    if column.kind == "zones":
+        return zones_reader()
+    return text_reader()

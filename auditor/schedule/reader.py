@@ -14,7 +14,6 @@ from typing import Any, Callable, Iterable
 
 from auditor.model import (
     Equipment,
-    InputFile,
     Panel,
     Project,
     RowProblem,
@@ -23,21 +22,23 @@ from auditor.model import (
 )
 from auditor.schedule import vocabulary as vocab
 from auditor.schedule.cells import (
+    MAX_CELL_CHARS,
     CellError,
     cell_text,
-    count_reader,
-    cutouts_reader,
-    outline_reader,
-    quantity_reader,
-    text_reader,
-    word_reader,
-    zones_reader,
+    column_letter,
+    column_reader,
+    shortened,
+    too_long_message,
+    unreadable_header_reader,
 )
-from auditor.schedule.sources import RawSheet, ScheduleFileError, load_file
+from auditor.schedule.inputs import ScheduleFile, display_names, resolved, unread_file_message
+from auditor.schedule.sources import RawSheet, ScheduleFileError, clean_sheet, load_file
 from auditor.schedule.validate import (
     USUAL_LINE_FREQUENCIES,
     equipment_from_values,
+    line_frequency_note,
     panel_from_values,
+    project_value_note,
 )
 from auditor.units import UnitError
 
@@ -45,6 +46,7 @@ __all__ = ["read_schedule", "ScheduleFileError"]
 
 HEADER_SEARCH_ROWS = 50  # non-empty rows searched for a header before a sheet is given up
 _PROGRESS_EVERY = 2000  # rows between progress calls
+_UNKNOWN_COLUMNS_NAMED = 20  # unknown columns of one header warned about one by one
 
 Progress = Callable[[int, int], None]
 
@@ -68,31 +70,6 @@ class _ColumnSpec:
     header: str  # as typed
     read: Callable[[Any], Any]
     field: str
-
-
-def _header_unit_failure(header: str, message: str) -> Callable[[Any], Any]:
-    def read(value: Any) -> Any:
-        raise CellError(f"the header {header!r} names a unit that is not known ({message})")
-
-    return read
-
-
-def _reader_for(column: vocab.Column, unit: str | None, decimal_comma: bool):
-    """The cell reader of a column; raises UnitError when the header's unit is bad."""
-    if column.kind == "quantity":
-        return quantity_reader(column.dimension, unit if unit is not None else column.default_unit,
-                               decimal_comma=decimal_comma)
-    if column.kind == "outline":
-        return outline_reader(unit if unit is not None else column.default_unit)
-    if column.kind == "cutouts":
-        return cutouts_reader(unit if unit is not None else column.default_unit)
-    if column.kind == "count":
-        return count_reader()
-    if column.kind == "word":
-        return word_reader(column.field, column.name)
-    if column.kind == "zones":
-        return zones_reader()
-    return text_reader()
 
 
 def _texts(values: list[Any]) -> list[tuple[int, str]]:
@@ -162,17 +139,21 @@ class _TableReader:
         self.specs: list[_ColumnSpec] = []
         self.header_of: dict[str, str] = {}
         seen: dict[str, str] = {}
+        unknown = 0
         for i, text in _texts(values):
             hit = matched.get(i)
             if hit is None and (vocab.header_key(vocab.split_header(text)[0])
                                 in vocab.IGNORED_HEADERS):
                 continue  # remarks for people
             if hit is None:
-                hint = vocab.suggest_header(text, table)
-                tail = f"; did you mean {hint!r}?" if hint else ""
-                out.problem(file, sheet.name, header_row, text,
-                            f"column {text!r} is not one the auditor reads; ignored{tail}",
-                            "warning", text)
+                unknown += 1
+                if unknown <= _UNKNOWN_COLUMNS_NAMED:
+                    shown = shortened(text)
+                    hint = vocab.suggest_header(text, table) if len(text) <= 60 else None
+                    tail = f"; did you mean {hint!r}?" if hint else ""
+                    out.problem(file, sheet.name, header_row, shown,
+                                f"column {shown!r} is not one the auditor reads; ignored{tail}",
+                                "warning", shown)
                 continue
             column, unit = hit
             if column.field in seen:
@@ -182,13 +163,17 @@ class _TableReader:
                 continue
             seen[column.field] = text
             try:
-                read = _reader_for(column, unit, sheet.decimal_comma)
+                read = column_reader(column, unit, sheet.decimal_comma)
             except UnitError as exc:
                 out.problem(file, sheet.name, header_row, text,
                             f"the header's unit is not usable: {exc}", "error", text)
-                read = _header_unit_failure(text, str(exc))
+                read = unreadable_header_reader(text, str(exc))
             self.specs.append(_ColumnSpec(i, column, text, read, column.field))
             self.header_of[column.field] = text
+        if unknown > _UNKNOWN_COLUMNS_NAMED:
+            out.problem(file, sheet.name, header_row, "",
+                        f"{unknown - _UNKNOWN_COLUMNS_NAMED} more columns are not ones the "
+                        "auditor reads; ignored", "warning")
         self.key_field = _KEY_COLUMN[table]
         self.key_index = next(s.index for s in self.specs if s.column.field == self.key_field)
         self.build = panel_from_values if table == vocab.PANELS else equipment_from_values
@@ -198,6 +183,15 @@ class _TableReader:
         self.label_of = {c.field: c.name for c in labels}
         self.label_of["tension_x"] = "tension x"
         self.label_of["tension_y"] = "tension y"
+        self.header_row = header_row
+        self.rows_read = 0
+
+    def finish(self) -> None:
+        """Warn when the table has a header but no data rows."""
+        if self.rows_read == 0:
+            what = "panel" if self.table == vocab.PANELS else "equipment"
+            self.out.problem(self.file, self.sheet, self.header_row, "",
+                             f"the {what} table under this header has no data rows", "warning")
 
     def looks_like_header(self, values: list[Any]) -> bool:
         key = values[self.key_index] if self.key_index < len(values) else None
@@ -213,6 +207,7 @@ class _TableReader:
         return self.label_of.get(field, field)
 
     def read_row(self, row: int, values: list[Any]) -> None:
+        self.rows_read += 1
         parsed: dict[str, Any] = {}
         texts: dict[str, str] = {}
         entered: list[tuple[str, str]] = []
@@ -227,6 +222,9 @@ class _TableReader:
             if kind is str:
                 text = raw.strip()
                 if not text:
+                    continue
+                if len(text) > MAX_CELL_CHARS:
+                    failures.append((spec.header, too_long_message(text), shortened(text)))
                     continue
             elif kind is float:
                 text = "%.15g" % raw
@@ -298,6 +296,11 @@ class _ProjectReader:
         key = cell_text(key_raw)
         text = cell_text(value)
         file, sheet = self.file, self.sheet.name
+        for cell in (key, text):
+            if len(cell) > MAX_CELL_CHARS:
+                self.out.problem(file, sheet, row, "", too_long_message(cell), "error",
+                                 shortened(cell))
+                return
         if not key:
             if text:
                 self.out.problem(file, sheet, row, "", "this row has a value but no key", "error",
@@ -312,14 +315,14 @@ class _ProjectReader:
             return
         column, unit = hit
         try:
-            reader = _reader_for(column, unit, self.sheet.decimal_comma)
+            reader = column_reader(column, unit, self.sheet.decimal_comma)
             parsed = reader(value)
         except (CellError, UnitError) as exc:
             self.out.problem(file, sheet, row, key, str(exc), "error", text)
             return
-        if column.kind == "quantity" and not parsed > 0:
-            self.out.problem(file, sheet, row, key, f"{column.name} must be positive", "error",
-                             text)
+        refused = project_value_note(column.field, parsed) if column.kind == "quantity" else None
+        if refused is not None:
+            self.out.problem(file, sheet, row, key, refused.message, "error", text)
             return
         if column.field == "line_frequency" and parsed not in USUAL_LINE_FREQUENCIES:
             self.out.problem(file, sheet, row, key,
@@ -333,14 +336,42 @@ class _ProjectReader:
         self.out.project[column.field] = (parsed, source)
 
 
+def _warn_cleaned(sheet: RawSheet, file: str, out: _Collector,
+                  headers: list[tuple[int, dict[int, str]]] | None) -> None:
+    """One warning per cell from which control characters were removed, naming its column
+    by the header above it (or by its letter, outside any table); ``headers`` None for a
+    sheet from which nothing is read (only its name is warned about)."""
+    if sheet.name_cleaned:
+        out.problem(file, sheet.name, None, "",
+                    "control characters were removed from this sheet's name", "warning")
+    if headers is None:
+        return
+    texts = {row: values for row, values in sheet.rows}
+    for row, index in sheet.cleaned:
+        names = next((h for start, h in reversed(headers) if start <= row), {})
+        column = names.get(index) or (f"column {index + 1}" if sheet.csv
+                                      else f"column {column_letter(index)}")
+        value = texts[row][index]
+        out.problem(file, sheet.name, row, column,
+                    "control characters (invisible, and harmful to the outputs) were removed "
+                    "from this cell; check its text", "warning", cell_text(value))
+
+
+def _header_names(values: list[Any]) -> dict[int, str]:
+    return dict(_texts(values))
+
+
 def _read_sheet(sheet: RawSheet, file: str, out: _Collector,
-                tick: Callable[[int], None]) -> None:
+                tick: Callable[[int], None]) -> list[str]:
+    """Read the tables of one sheet; return the kinds of table found ("panels", ...)."""
     rows = sheet.rows
     if not rows or (not sheet.csv and vocab.is_note_sheet(sheet.name)):
         tick(len(rows))  # sheets for people ("Read me", "Notes") are never read as tables
-        return
+        _warn_cleaned(sheet, file, out, None)
+        return []
     reader = None
     start = 0
+    headers: list[tuple[int, dict[int, str]]] = []
     for position, (row, values) in enumerate(rows[:HEADER_SEARCH_ROWS]):
         found = _classify(values)
         if found is not None:
@@ -350,6 +381,7 @@ def _read_sheet(sheet: RawSheet, file: str, out: _Collector,
                 reader = _ProjectReader(key_index, value_index, sheet, file, out)
             else:
                 reader = _TableReader(table, row, values, matched, sheet, file, out)
+            headers.append((row, _header_names(values)))
             start = position + 1
             break
         texts = _texts(values)
@@ -368,19 +400,28 @@ def _read_sheet(sheet: RawSheet, file: str, out: _Collector,
                     "(N/m)'), an equipment header ('Equipment | Kind | rpm | Blades') or "
                     "a 'Key | Value' project header; not read", "warning")
         tick(len(rows))
-        return
+        _warn_cleaned(sheet, file, out, None)
+        return []
+    found_tables = [vocab.PROJECT if isinstance(reader, _ProjectReader) else reader.table]
     done = 0
     for row, values in rows[start:]:
         if isinstance(reader, _TableReader) and reader.looks_like_header(values):
             found = _classify(values)
             if found is not None and found[0] != vocab.PROJECT:
+                reader.finish()
                 reader = _TableReader(found[0], row, values, found[1], sheet, file, out)
+                headers.append((row, _header_names(values)))
+                found_tables.append(reader.table)
                 continue
         reader.read_row(row, values)
         done += 1
         if done % _PROGRESS_EVERY == 0:
             tick(_PROGRESS_EVERY)
+    if isinstance(reader, _TableReader):
+        reader.finish()
     tick(len(rows) - done + done % _PROGRESS_EVERY)
+    _warn_cleaned(sheet, file, out, headers)
+    return found_tables
 
 
 def _as_paths(paths) -> list[str | os.PathLike]:
@@ -394,6 +435,23 @@ def _project(out: _Collector) -> Project:
     return Project(extra=tuple(out.extra.values()), **facts)
 
 
+def _check_line_frequencies(out: _Collector) -> None:
+    """Reject motors and transformers whose line frequency is in neither the row nor the
+    project (the Project sheet may come after the equipment, or from another file)."""
+    project = out.project.get("line_frequency")
+    project_value = project[0] if project is not None else None
+    kept = []
+    for item in out.equipment:
+        note = line_frequency_note(item, project_value)
+        if note is None:
+            kept.append(item)
+            continue
+        src = item.source
+        out.problem(src.file, src.sheet, src.row, "line frequency", note.message, "error",
+                    "", item.equipment)
+    out.equipment = kept
+
+
 def read_schedule(
     paths: str | os.PathLike | Iterable[str | os.PathLike],
     *,
@@ -405,7 +463,8 @@ def read_schedule(
     ----------
     paths : path or iterable of paths
         Workbooks and CSV files; their panels, equipment and project facts are gathered
-        (panel ids and equipment tags must be unique across all of them).
+        (panel ids and equipment tags must be unique across all of them). A file given
+        twice is read once.
     progress : callable(done, total), optional
         Called as reading advances; ``done`` reaches ``total`` at the end. The units are
         arbitrary (rows, weighted by file); only the ratio means anything.
@@ -413,30 +472,51 @@ def read_schedule(
     Returns
     -------
     Schedule
-        ``panels``, ``equipment``, ``project``, every problem found (a file that cannot be
-        read at all is one error problem with no sheet), and the SHA-256 of each file read.
+        ``panels``, ``equipment``, ``project``, every problem found, and ``files``.
+
+        Files are named by their file name (``auditor.schedule.inputs``), never by where
+        they lie: ``SourceRef.file``, ``RowProblem.file`` and ``InputFile.path`` hold that
+        name, and ``files`` holds :class:`~auditor.schedule.inputs.ScheduleFile` entries
+        whose ``location`` (in memory only) says where each was read.
+
+        ``files`` lists the files something was read from: a file in which a panel table
+        or an equipment table was found (even one with a header and no rows, which is
+        warned about), and a file of project facts alone when another file of the run has
+        such a table. A file that cannot be opened, or in which no panel or equipment
+        table was found, is one error problem with no sheet or row, and is not in
+        ``files``; when no file has such a table, ``files`` is empty (``auditor check``
+        and ``audit`` then exit with status 2: nothing could be read). When no file has
+        a panel table, each file read says so in a warning.
     """
     items = _as_paths(paths)
+    names = display_names(items)
     out = _Collector()
-    files: list[InputFile] = []
+    read: list[tuple[ScheduleFile, set[str], list[RawSheet]]] = []
     per_file = 1_000_000
     total = max(1, per_file * len(items))
     done = 0
+    seen: dict[str, str] = {}
 
     def report(value: int) -> None:
         if progress is not None:
             progress(min(value, total), total)
 
-    for path in items:
-        shown = str(path)
+    for path, shown in zip(items, names):
+        where = str(resolved(path))
+        if where in seen:
+            out.problem(shown, "", None, "", f"{shown} is given more than once; it is read once",
+                        "warning")
+            done += per_file
+            report(done)
+            continue
+        seen[where] = shown
         try:
-            loaded = load_file(path)
+            loaded = load_file(path, shown)
         except ScheduleFileError as exc:
             out.problem(shown, "", None, "", str(exc), "error")
             done += per_file
             report(done)
             continue
-        files.append(InputFile(path=loaded.path, sha256=loaded.sha256))
         for message in loaded.warnings:
             out.problem(shown, "", None, "", message, "warning")
         base = done + per_file // 5  # loading is about a fifth of the work
@@ -449,10 +529,30 @@ def read_schedule(
             counted += n
             report(base + (per_file - per_file // 5) * min(counted, rows_total) // rows_total)
 
+        tables: set[str] = set()
         for sheet in loaded.sheets:
-            _read_sheet(sheet, shown, out, tick)
+            tables.update(_read_sheet(sheet, shown, out, tick))
+        read.append((ScheduleFile(path=shown, sha256=loaded.sha256, location=loaded.location),
+                     tables, loaded.sheets))
         done += per_file
         report(done)
+
+    any_table = any(t & {vocab.PANELS, vocab.EQUIPMENT} for _, t, _ in read)
+    any_panels = any(vocab.PANELS in t for _, t, _ in read)
+    files = []
+    for item, tables, sheets in read:
+        error = unread_file_message(item.path, sheets, tables)
+        if error is not None and not (any_table and vocab.PROJECT in tables):
+            out.problem(item.path, "", None, "", error, "error")
+            continue
+        files.append(item)
+        if any_table and not any_panels:
+            looked = ", ".join(repr(s.name) for s in sheets
+                               if s.csv or not vocab.is_note_sheet(s.name)) or "none"
+            out.problem(item.path, "", None, "",
+                        f"no panel table was found in {item.path} (sheets looked at: "
+                        f"{looked}); there is no panel to audit", "warning")
+    _check_line_frequencies(out)
     return Schedule(
         panels=tuple(out.panels),
         equipment=tuple(out.equipment),
@@ -476,7 +576,9 @@ def read_rows(
     """
     out = _Collector()
     table = [(1, list(headers))] + [(i, list(r)) for i, r in enumerate(rows, start=2)]
-    _read_sheet(RawSheet(name=name, rows=table, csv=True), name, out, lambda n: None)
+    _read_sheet(clean_sheet(RawSheet(name=name, rows=table, csv=True)), name, out,
+                lambda n: None)
+    _check_line_frequencies(out)
     return Schedule(
         panels=tuple(out.panels),
         equipment=tuple(out.equipment),

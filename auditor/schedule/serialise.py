@@ -63,7 +63,8 @@ def schedule_to_dict(schedule: Schedule) -> dict[str, Any]:
     dict
         ``{"panels": [...], "equipment": [...], "project": {...}, "problems": [...],
         "files": [...]}``; each problem has ``file, sheet, row, column, message, severity,
-        text, record``; ``project["extra"]`` maps each unknown key as typed to its value.
+        text, record``; ``project["extra"]`` maps each unknown key as typed to its value;
+        each file is its ``name`` (never a folder) and ``sha256``.
     """
     project = schedule.project
     project_dict = {f.name: getattr(project, f.name) for f in fields(project)}
@@ -73,7 +74,7 @@ def schedule_to_dict(schedule: Schedule) -> dict[str, Any]:
         "equipment": [equipment_to_dict(e) for e in schedule.equipment],
         "project": project_dict,
         "problems": [p.as_dict() for p in schedule.problems],
-        "files": [{"path": f.path, "sha256": f.sha256} for f in schedule.files],
+        "files": [{"name": f.path, "sha256": f.sha256} for f in schedule.files],
     }
 
 

@@ -1,20 +1,33 @@
 """Opening schedule files safely and getting their rows: .xlsx workbooks and .csv files.
 
-A workbook is checked as a zip archive before anything parses it (a valid zip, holding a
-workbook, expanding to at most :data:`MAX_EXPANDED_BYTES`). Its saved cell values (for
-formulas, the value a spreadsheet program saved) are then read by the fast reader in
-``auditor.schedule.xlsx``; a layout that reader does not know falls back to openpyxl in
-read-only mode with ``data_only=True``. Either way a formula cell that holds no saved value
-is told apart from an empty cell in the same single pass, and cells merged down a column (a
-zone merged over several rows) fill every row of the merge.
+A workbook is checked and inflated by ``auditor.schedule.archive`` (a zip holding a workbook,
+its XML inflated a chunk at a time within a byte budget, whatever sizes the archive
+declares). Its saved cell values (for formulas, the value a spreadsheet program saved) are
+then read by the fast reader in ``auditor.schedule.xlsx``; a layout that reader does not know
+falls back to openpyxl in read-only mode with ``data_only=True``. Either way a formula cell
+that holds no saved value is told apart from an empty cell in the same single pass, and cells
+merged down a column (a zone merged over several rows) fill every row of the merge, down to
+the sheet's last row with data.
 
-A CSV file is UTF-8 with or without a byte-order mark (other bytes are read as Windows-1252
-with a warning); its delimiter is whatever ``csv.Sniffer`` finds. A file separated by
-semicolons is read with decimal commas ("0,25"), as the locales that use semicolons write.
+A CSV file's encoding comes from its byte-order mark (UTF-8, UTF-16 or UTF-32, little- or
+big-endian); without one it is UTF-8, else UTF-16 when every other byte is zero, else
+Windows-1252 (with a warning). Its delimiter is whatever ``csv.Sniffer`` finds. A file
+separated by semicolons is read with decimal commas ("0,25"), as the locales that use
+semicolons write.
+
+Every text cell is cleaned of control characters here (``cells.clean_text``), so nothing
+downstream ever sees one; the cells cleaned are listed on the sheet for the reader to warn
+about. Sizes are bounded: the file, the rows of a sheet, the cells of a row.
+
+References
+----------
+.. [1] The Unicode Standard, version 15.0, §23.8 "Specials": byte order marks of UTF-8,
+   UTF-16 and UTF-32.
 """
 
 from __future__ import annotations
 
+import codecs
 import csv
 import hashlib
 import io
@@ -23,25 +36,35 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from auditor.schedule.cells import UNCACHED_FORMULA
-from auditor.schedule.xlsx import UnsupportedWorkbook, read_workbook_rows
+from auditor.schedule.archive import (
+    MAX_EXPANDED_BYTES,
+    ScheduleFileError,
+    verified_workbook_archive,
+)
+from auditor.schedule.cells import UNCACHED_FORMULA, clean_text
+from auditor.schedule.xlsx import TooManyRows, UnsupportedWorkbook, read_workbook_rows
 
 __all__ = [
     "ScheduleFileError",
     "RawSheet",
     "LoadedFile",
     "MAX_EXPANDED_BYTES",
+    "MAX_FILE_BYTES",
+    "MAX_TEXT_BYTES",
+    "MAX_ROWS",
+    "MAX_COLUMNS",
     "load_file",
-    "inspect_workbook_archive",
+    "clean_sheet",
 ]
 
-MAX_EXPANDED_BYTES = 200_000_000  # [bytes] a schedule is far smaller; anything bigger is refused
-MAX_ARCHIVE_MEMBERS = 10_000
-MAX_FILE_BYTES = 200_000_000
-
-
-class ScheduleFileError(Exception):
-    """A whole file cannot be read (missing, not a workbook, too large); the message says why."""
+#: [bytes] Largest workbook file read (compressed, pictures included).
+MAX_FILE_BYTES = 100_000_000
+#: [bytes] Largest CSV file read: some 100 000 rows of a wide schedule.
+MAX_TEXT_BYTES = 20_000_000
+#: Most non-empty rows in one sheet or CSV file: five times the 20 000-panel benchmark.
+MAX_ROWS = 100_000
+#: Most cells in one row: the widest sheet a spreadsheet program makes (column XFD).
+MAX_COLUMNS = 16_384
 
 
 @dataclass
@@ -49,62 +72,52 @@ class RawSheet:
     """One sheet (or CSV file) as rows of raw cell values.
 
     ``rows`` holds (row number as the spreadsheet shows it, values) for non-empty rows only;
-    for a CSV file the row number is the line on which the record starts.
+    for a CSV file the row number is the line on which the record starts. ``cleaned`` lists
+    the cells (row number, 0-based column) from which control characters were removed.
+    ``name_cleaned`` is True when the sheet's own name had some.
     """
 
     name: str
     rows: list[tuple[int, list[Any]]]
     decimal_comma: bool = False
     csv: bool = False
+    cleaned: list[tuple[int, int]] = field(default_factory=list)
+    name_cleaned: bool = False
 
 
 @dataclass
 class LoadedFile:
-    path: str
+    """One file as read: its name for messages, where it is, its SHA-256 and its sheets."""
+
+    name: str
+    location: str
     sha256: str
     sheets: list[RawSheet]
     warnings: list[str] = field(default_factory=list)
 
 
-def inspect_workbook_archive(data: bytes, name: str) -> None:
-    """Refuse an .xlsx that is not a zip, not a workbook, or expands beyond the limit.
+def clean_sheet(sheet: RawSheet) -> RawSheet:
+    """Remove control characters from every text cell and the sheet's name, noting where."""
+    for row, values in sheet.rows:
+        for index, value in enumerate(values):
+            if value.__class__ is str and not value.isprintable():
+                text, removed = clean_text(value)
+                values[index] = text
+                if removed:
+                    sheet.cleaned.append((row, index))
+    sheet.name, sheet.name_cleaned = clean_text(sheet.name)
+    return sheet
 
-    Parameters
-    ----------
-    data : bytes
-        The file's content.
-    name : str
-        The file as the user named it, for messages.
 
-    Raises
-    ------
-    ScheduleFileError
-    """
-    if not data.startswith(b"PK"):
-        if data.startswith(b"\xd0\xcf\x11\xe0"):
-            raise ScheduleFileError(
-                f"{name} is an Excel 97-2003 workbook (.xls); save it as .xlsx and try again")
-        raise ScheduleFileError(f"{name} is not an Excel workbook (.xlsx): it is not a zip archive")
-    try:
-        archive = zipfile.ZipFile(io.BytesIO(data))
-        infos = archive.infolist()
-    except (zipfile.BadZipFile, zipfile.LargeZipFile, ValueError, OSError) as exc:
-        raise ScheduleFileError(f"{name} is not a readable workbook: the zip archive is "
-                                f"damaged ({exc})") from None
-    if len(infos) > MAX_ARCHIVE_MEMBERS:
-        raise ScheduleFileError(f"{name} holds {len(infos)} archive members; refusing "
-                                f"(a workbook has far fewer than {MAX_ARCHIVE_MEMBERS})")
-    expanded = sum(info.file_size for info in infos)
-    if expanded > MAX_EXPANDED_BYTES:
-        raise ScheduleFileError(
-            f"{name}: archive expands to {expanded / 1e6:.0f} MB; refusing (the limit is "
-            f"{MAX_EXPANDED_BYTES / 1e6:.0f} MB)")
-    names = {info.filename for info in infos}
-    if "[Content_Types].xml" not in names or not any(
-            n.startswith("xl/workbook") and n.endswith((".xml", ".bin")) for n in names):
-        raise ScheduleFileError(f"{name} is a zip archive but not an Excel workbook (.xlsx)")
-    if "xl/workbook.bin" in names and "xl/workbook.xml" not in names:
-        raise ScheduleFileError(f"{name} is a binary workbook (.xlsb); save it as .xlsx")
+def _too_many_rows(name: str, where: str) -> ScheduleFileError:
+    return ScheduleFileError(f"{name}: {where} has more than {MAX_ROWS} rows; refusing (split "
+                             "the schedule into several files)")
+
+
+def _check_size(sheet: RawSheet, name: str) -> RawSheet:
+    if len(sheet.rows) > MAX_ROWS:
+        raise _too_many_rows(name, "the file" if sheet.csv else f"sheet {sheet.name!r}")
+    return sheet
 
 
 def _sheet_parser_class():
@@ -136,6 +149,8 @@ def _rows_of_sheet(workbook, worksheet) -> list[tuple[int, list[Any]]]:
             for index, cells in parser.parse():
                 if not cells:
                     continue
+                if len(rows) >= MAX_ROWS:
+                    raise TooManyRows(MAX_ROWS, worksheet.title)
                 values: list[Any] = [None] * cells[-1]["column"]
                 for cell in cells:
                     values[cell["column"] - 1] = cell["value"]
@@ -149,6 +164,7 @@ def _rows_of_sheet(workbook, worksheet) -> list[tuple[int, list[Any]]]:
             if values:
                 rows[index] = list(values)
     if merged is not None:
+        last = max(rows, default=0)  # a merge never makes rows below the last with data
         for rng in getattr(merged, "mergeCell", ()):
             try:
                 min_col, min_row, _max_col, max_row = range_boundaries(rng.ref)
@@ -158,7 +174,7 @@ def _rows_of_sheet(workbook, worksheet) -> list[tuple[int, list[Any]]]:
             value = top[min_col - 1] if top and len(top) >= min_col else None
             if value is None:
                 continue
-            for r in range(min_row + 1, (max_row or min_row) + 1):
+            for r in range(min_row + 1, min(max_row or min_row, last) + 1):
                 row = rows.setdefault(r, [])
                 if len(row) < min_col:
                     row.extend([None] * (min_col - len(row)))
@@ -181,24 +197,34 @@ def _finish_rows(rows: dict[int, list[Any]]) -> list[tuple[int, list[Any]]]:
 
 
 def _load_workbook(data: bytes, name: str) -> list[RawSheet]:
-    inspect_workbook_archive(data, name)
+    buffer = verified_workbook_archive(data, name)
     try:
-        with zipfile.ZipFile(io.BytesIO(data)) as archive:
-            return [RawSheet(sheet, _finish_rows(rows))
-                    for sheet, rows in read_workbook_rows(archive)]
+        with zipfile.ZipFile(buffer) as archive:
+            sheets = [RawSheet(sheet, _finish_rows(rows))
+                      for sheet, rows in read_workbook_rows(archive, MAX_ROWS)]
+    except TooManyRows as exc:
+        raise _too_many_rows(name, f"sheet {exc.sheet!r}") from None
     except UnsupportedWorkbook:
-        return _load_workbook_with_openpyxl(data, name)
+        return _load_workbook_with_openpyxl(data, name, buffer)
     except (zipfile.BadZipFile, OSError, EOFError) as exc:
         raise ScheduleFileError(f"{name} is not a readable workbook: the zip archive is "
                                 f"damaged ({exc})") from None
+    return [clean_sheet(_check_size(sheet, name)) for sheet in sheets]
 
 
-def _load_workbook_with_openpyxl(data: bytes, name: str) -> list[RawSheet]:
-    """The general path: openpyxl in read-only mode, saved formula values (data_only)."""
+def _load_workbook_with_openpyxl(data: bytes, name: str,
+                                 buffer: io.BytesIO | None = None) -> list[RawSheet]:
+    """The general path: openpyxl in read-only mode, saved formula values (data_only).
+
+    ``buffer`` is the verified archive when the caller has it already.
+    """
     import openpyxl
 
+    if buffer is None:
+        buffer = verified_workbook_archive(data, name)
+    buffer.seek(0)
     try:
-        workbook = openpyxl.load_workbook(io.BytesIO(data), read_only=True, data_only=True,
+        workbook = openpyxl.load_workbook(buffer, read_only=True, data_only=True,
                                           keep_links=False)
     except Exception as exc:  # openpyxl raises many kinds for a damaged workbook
         raise ScheduleFileError(f"{name} could not be read as a workbook "
@@ -208,37 +234,69 @@ def _load_workbook_with_openpyxl(data: bytes, name: str) -> list[RawSheet]:
         for worksheet in workbook.worksheets:
             try:
                 rows = _rows_of_sheet(workbook, worksheet)
+            except TooManyRows:
+                raise _too_many_rows(name, f"sheet {worksheet.title!r}") from None
             except Exception as exc:  # a damaged sheet: the file cannot be trusted
                 raise ScheduleFileError(f"{name}: sheet {worksheet.title!r} could not be read "
                                         f"({type(exc).__name__}: {exc})") from None
-            sheets.append(RawSheet(worksheet.title, rows))
+            sheets.append(clean_sheet(_check_size(RawSheet(worksheet.title, rows), name)))
         return sheets
     finally:
         workbook.close()
 
 
-_SNIFF_BYTES = 32_768
+#: Characters of a CSV file its delimiter is guessed from: the header and first rows.
+#: ``csv.Sniffer`` matches regular expressions whose time grows with the square of the
+#: sample on some inputs (8 s for 32 kB of ',"' repeated); 4 kB keeps it near 0.2 s.
+_SNIFF_CHARS = 4096
+_DELIMITERS = ",;\t|"  # the delimiters a schedule's CSV file may use
+# Byte-order marks, longest first (a UTF-32 LE mark begins with the UTF-16 LE one) [1].
+_BOMS = (
+    (codecs.BOM_UTF32_LE, "utf-32-le", "UTF-32"),
+    (codecs.BOM_UTF32_BE, "utf-32-be", "UTF-32"),
+    (codecs.BOM_UTF8, "utf-8", "UTF-8"),
+    (codecs.BOM_UTF16_LE, "utf-16-le", "UTF-16"),
+    (codecs.BOM_UTF16_BE, "utf-16-be", "UTF-16"),
+)
 
 
-def _load_csv(data: bytes, path: Path) -> tuple[list[RawSheet], list[str]]:
-    warnings = []
+def _decode(data: bytes) -> tuple[str, list[str]]:
+    """The text of a CSV file and any warning about how it was decoded."""
+    for bom, codec, label in _BOMS:
+        if data.startswith(bom):
+            try:
+                return data[len(bom):].decode(codec), []
+            except UnicodeDecodeError:
+                return data[len(bom):].decode(codec, errors="replace"), [
+                    f"some bytes are not valid {label} (the byte-order mark says {label}); "
+                    "they are shown as \ufffd"]
+    head = data[:4096]
+    if head.count(0) * 3 > len(head):  # every other byte zero: UTF-16 with no mark
+        big_endian = head[0::2].count(0) > head[1::2].count(0)  # zero high bytes first
+        codec, label = ("utf-16-be", "UTF-16 BE") if big_endian else ("utf-16-le", "UTF-16 LE")
+        return data.decode(codec, errors="replace"), [
+            f"the file has no byte-order mark; it was read as {label} (save it as 'CSV UTF-8' "
+            "to be sure)"]
     try:
-        text = data.decode("utf-8-sig")
+        return data.decode("utf-8"), []
     except UnicodeDecodeError:
-        text = data.decode("cp1252", errors="replace")
-        warnings.append("the file is not UTF-8; it was read as Windows-1252 (save it as "
-                        "'CSV UTF-8' to be sure of accented characters)")
-    sample = text[:_SNIFF_BYTES]
-    if len(text) > _SNIFF_BYTES and "\n" in sample:
+        return data.decode("cp1252", errors="replace"), [
+            "the file is not UTF-8; it was read as Windows-1252 (save it as 'CSV UTF-8' to be "
+            "sure of accented characters)"]
+
+
+def _load_csv(data: bytes, name: str, stem: str) -> tuple[list[RawSheet], list[str]]:
+    text, warnings = _decode(data)
+    sample = text[:_SNIFF_CHARS]
+    if len(text) > _SNIFF_CHARS and "\n" in sample:
         sample = sample[: sample.rindex("\n")]
-    sniffer = csv.Sniffer()
     try:
-        dialect = sniffer.sniff(sample, delimiters=",;\t|")
-    except csv.Error:
-        try:
-            dialect = sniffer.sniff(sample)
-        except csv.Error:
-            dialect = csv.excel
+        dialect = csv.Sniffer().sniff(sample, delimiters=_DELIMITERS)
+    except csv.Error:  # rows of unequal length: the delimiter the first line uses most
+        first = sample.split("\n", 1)[0]
+        dialect = csv.excel()
+        dialect.delimiter = max(_DELIMITERS, key=first.count) if any(
+            d in first for d in _DELIMITERS) else ","
     reader = csv.reader(io.StringIO(text, newline=""), dialect)
     rows = []
     last_line = 0
@@ -246,18 +304,25 @@ def _load_csv(data: bytes, path: Path) -> tuple[list[RawSheet], list[str]]:
         for record in reader:
             start = last_line + 1
             last_line = reader.line_num
+            if len(record) > MAX_COLUMNS:
+                raise ScheduleFileError(
+                    f"{name}: line {start} has {len(record)} cells; refusing (the limit is "
+                    f"{MAX_COLUMNS})")
             while record and not record[-1].strip():
                 record.pop()
             if record:
                 rows.append((start, record))
+                if len(rows) > MAX_ROWS:
+                    break
     except csv.Error as exc:
-        raise ScheduleFileError(f"{path} could not be read as CSV near line {last_line + 1} "
+        raise ScheduleFileError(f"{name} could not be read as CSV near line {last_line + 1} "
                                 f"({exc})") from None
     delimiter = getattr(dialect, "delimiter", ",")
-    return [RawSheet(path.stem, rows, decimal_comma=delimiter == ";", csv=True)], warnings
+    sheet = RawSheet(stem, rows, decimal_comma=delimiter == ";", csv=True)
+    return [clean_sheet(_check_size(sheet, name))], warnings
 
 
-def load_file(path: str | Path) -> LoadedFile:
+def load_file(path: str | Path, name: str | None = None) -> LoadedFile:
     """Read one schedule file into raw sheets, with its SHA-256.
 
     Parameters
@@ -265,6 +330,9 @@ def load_file(path: str | Path) -> LoadedFile:
     path : str or Path
         An .xlsx/.xlsm workbook or a .csv/.txt/.tsv file (a zip file of another name is
         tried as a workbook).
+    name : str, optional
+        The file as messages name it (default: its base name; never the folders above it,
+        so no message shows where on the machine it was).
 
     Returns
     -------
@@ -273,29 +341,36 @@ def load_file(path: str | Path) -> LoadedFile:
     Raises
     ------
     ScheduleFileError
-        Missing, unreadable, not a workbook, too large.
+        Missing, unreadable, not a workbook, too large, damaged.
     """
     p = Path(path)
-    shown = str(path)
-    if not p.exists():
+    shown = name if name is not None else (clean_text(p.name)[0] or str(path))
+    try:
+        exists, folder = p.exists(), p.is_dir()
+    except (OSError, ValueError):  # a name with a NUL character, or too long
+        raise ScheduleFileError(f"{shown!r} is not a file name this system can open") from None
+    if not exists:
         raise ScheduleFileError(f"{shown} does not exist")
-    if p.is_dir():
+    if folder:
         raise ScheduleFileError(f"{shown} is a folder, not a schedule file")
+    suffix = p.suffix.lower()
+    text_like = suffix in (".csv", ".txt", ".tsv")
     try:
         size = p.stat().st_size
-        if size > MAX_FILE_BYTES:
+        limit = MAX_TEXT_BYTES if text_like else MAX_FILE_BYTES
+        if size > limit:
             raise ScheduleFileError(f"{shown} is {size / 1e6:.0f} MB; refusing (the limit is "
-                                    f"{MAX_FILE_BYTES / 1e6:.0f} MB)")
+                                    f"{limit / 1e6:.0f} MB)")
         data = p.read_bytes()
     except OSError as exc:
         raise ScheduleFileError(f"{shown} could not be read ({exc.strerror or exc})") from None
     digest = hashlib.sha256(data).hexdigest()
-    suffix = p.suffix.lower()
-    if suffix in (".csv", ".txt", ".tsv") and not data.startswith(b"PK"):
-        sheets, warnings = _load_csv(data, p)
-        return LoadedFile(shown, digest, sheets, warnings)
+    location = str(p.resolve())  # it exists: resolving it cannot fail
+    if text_like and not data.startswith(b"PK"):
+        sheets, warnings = _load_csv(data, shown, clean_text(p.stem)[0])
+        return LoadedFile(shown, location, digest, sheets, warnings)
     if suffix in (".xlsx", ".xlsm", ".xltx", ".xltm") or data.startswith(b"PK"):
-        return LoadedFile(shown, digest, _load_workbook(data, shown))
+        return LoadedFile(shown, location, digest, _load_workbook(data, shown))
     if suffix == ".xls" or data.startswith(b"\xd0\xcf\x11\xe0"):
         raise ScheduleFileError(
             f"{shown} is an Excel 97-2003 workbook (.xls); save it as .xlsx and try again")

@@ -235,6 +235,17 @@ EQUIPMENT_COLUMNS: tuple[Column, ...] = (
     Column("harmonics", "harmonics", EQUIPMENT, "count",
            synonyms=("number of harmonics", "no of harmonics", "orders"),
            meaning="Harmonics to consider for this item (blank: the rule set's)."),
+    Column("isolator deflection", "isolator_deflection", EQUIPMENT, "quantity", "length", "mm",
+           synonyms=("static deflection", "mount deflection", "isolator static deflection",
+                     "mount static deflection", "spring deflection", "deflection",
+                     "isolation deflection"),
+           meaning="Static deflection of the item's vibration isolators under its weight "
+                   "(blank: rigidly mounted; the report states that assumption)."),
+    Column("isolator damping", "isolator_damping", EQUIPMENT, "quantity", "dimensionless", "",
+           synonyms=("damping ratio", "mount damping", "isolator damping ratio",
+                     "mount damping ratio", "zeta", "ζ"),
+           meaning="Damping ratio ζ of the isolators, a fraction (0.05) or percent (5 %) "
+                   "(blank: the usual value for the mount; used only with a deflection)."),
 )
 
 PROJECT_KEYS: tuple[Column, ...] = (

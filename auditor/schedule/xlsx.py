@@ -29,7 +29,7 @@ from typing import Any
 
 from auditor.schedule.cells import UNCACHED_FORMULA
 
-__all__ = ["UnsupportedWorkbook", "read_workbook_rows"]
+__all__ = ["UnsupportedWorkbook", "TooManyRows", "read_workbook_rows"]
 
 _MAIN = "http://schemas.openxmlformats.org/spreadsheetml/2006/main"
 _REL = "http://schemas.openxmlformats.org/officeDocument/2006/relationships"
@@ -47,6 +47,14 @@ _BUILTIN_DATE_FORMATS = frozenset({14, 15, 16, 17, 18, 19, 20, 21, 22, 27, 28, 2
 
 class UnsupportedWorkbook(Exception):
     """The fast reader does not recognise this workbook's layout; use openpyxl instead."""
+
+
+class TooManyRows(Exception):
+    """A sheet has more rows with data than the reader takes (``limit``)."""
+
+    def __init__(self, limit: int, sheet: str = "") -> None:
+        super().__init__(f"sheet {sheet!r} has more than {limit} rows")
+        self.limit, self.sheet = limit, sheet
 
 
 def _xml(data: bytes):
@@ -165,7 +173,7 @@ def _from_serial(serial: float, epoch: _dt.datetime) -> Any:
 
 
 def _sheet_rows(text: str, shared: list[str], date_styles: frozenset[int],
-                epoch: _dt.datetime) -> dict[int, list[Any]]:
+                epoch: _dt.datetime, max_rows: int) -> dict[int, list[Any]]:
     if re.search(r"<\w+:worksheet\b", text[:1000]):
         raise UnsupportedWorkbook("namespace prefix in a worksheet")
     start = text.find("<sheetData")
@@ -177,7 +185,8 @@ def _sheet_rows(text: str, shared: list[str], date_styles: frozenset[int],
     matched = 0
     current_text = ""
     current: dict[int, Any] = {}
-    for pre, col, row_text, post, body in _CELL.findall(data):
+    for match in _CELL.finditer(data):  # one cell at a time: memory follows the values kept
+        pre, col, row_text, post, body = match.groups()
         matched += 1
         if not body:
             continue
@@ -192,6 +201,8 @@ def _sheet_rows(text: str, shared: list[str], date_styles: frozenset[int],
         if row_text != current_text:
             current = rows.setdefault(int(row_text), {})
             current_text = row_text
+            if len(rows) > max_rows:
+                raise TooManyRows(max_rows)
         if kind == "inlineStr":
             if body.startswith("<is><t>") and body.endswith("</t></is>") and body.count("<") == 4:
                 string = body[7:-9]
@@ -243,13 +254,14 @@ def _sheet_rows(text: str, shared: list[str], date_styles: frozenset[int],
             values[column - 1] = value
         out[index] = values
     tail = text[end:] if end > 0 else ""
+    last = max(out, default=0)  # a merge never makes rows below the last with data
     for col0, row0, col1, row1 in _MERGE.findall(tail):
         top = out.get(int(row0))
         c = _column_index(col0)
         value = top[c - 1] if top and len(top) >= c else None
         if value is None or not row1:
             continue
-        for r in range(int(row0) + 1, int(row1) + 1):
+        for r in range(int(row0) + 1, min(int(row1), last) + 1):
             row = out.setdefault(r, [])
             if len(row) < c:
                 row.extend([None] * (c - len(row)))
@@ -258,13 +270,16 @@ def _sheet_rows(text: str, shared: list[str], date_styles: frozenset[int],
     return out
 
 
-def read_workbook_rows(archive: zipfile.ZipFile) -> list[tuple[str, dict[int, list[Any]]]]:
+def read_workbook_rows(archive: zipfile.ZipFile, max_rows: int
+                       ) -> list[tuple[str, dict[int, list[Any]]]]:
     """Every worksheet's saved cell values, by sheet, in workbook order.
 
     Parameters
     ----------
     archive : zipfile.ZipFile
-        An archive already checked by ``inspect_workbook_archive``.
+        An archive already verified by ``archive.verified_workbook_archive``.
+    max_rows : int
+        Most rows with data a sheet may have.
 
     Returns
     -------
@@ -277,6 +292,9 @@ def read_workbook_rows(archive: zipfile.ZipFile) -> list[tuple[str, dict[int, li
     ------
     UnsupportedWorkbook
         The layout is not one this reader knows; read the workbook with openpyxl.
+    TooManyRows
+        A sheet has more than ``max_rows`` rows with data (found while reading it, so the
+        rest of it is never parsed).
     """
     try:
         package = _relationships(archive, "")
@@ -301,9 +319,13 @@ def read_workbook_rows(archive: zipfile.ZipFile) -> list[tuple[str, dict[int, li
             if rel_type != _WORKSHEET_TYPE:
                 continue  # chart sheets and dialog sheets hold no table
             text = archive.read(part).decode("utf-8")
-            out.append((sheet.get("name", ""), _sheet_rows(text, shared, date_styles, epoch)))
+            name = sheet.get("name", "")
+            try:
+                out.append((name, _sheet_rows(text, shared, date_styles, epoch, max_rows)))
+            except TooManyRows as exc:
+                raise TooManyRows(exc.limit, name) from None
         return out
-    except UnsupportedWorkbook:
+    except (UnsupportedWorkbook, TooManyRows):
         raise
     except Exception as exc:  # anything unexpected: let openpyxl try
         raise UnsupportedWorkbook(f"{type(exc).__name__}: {exc}") from None
