@@ -61,13 +61,14 @@ import os
 import re
 import stat
 import struct
-import tempfile
 import warnings
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Literal, Sequence
 
 import numpy as np
+
+from auditor.atomic import write_atomic
 
 __all__ = [
     "Recording",
@@ -810,22 +811,13 @@ def write_wav(path: str | os.PathLike, samples: np.ndarray, sample_rate: int,
     else:
         raise ValueError("bits must be 16, 24, 32, 'float' or 'float64'")
 
-    handle = tempfile.NamedTemporaryFile(dir=path.parent or ".", prefix=path.name + ".",
-                                         suffix=".tmp", delete=False)
-    try:
-        with handle:
-            if bits == 24:
-                handle.write(_pcm24_bytes(np.asarray(payload), rate))
-            else:
-                wavfile.write(handle, rate, payload)
-        os.replace(handle.name, path)
-    except BaseException:
-        try:
-            os.unlink(handle.name)
-        except OSError:
-            pass
-        raise
-    return path
+    def write(handle) -> None:
+        if bits == 24:
+            handle.write(_pcm24_bytes(np.asarray(payload), rate))
+        else:
+            wavfile.write(handle, rate, payload)
+
+    return write_atomic(path, write)
 
 
 def _pcm24_bytes(ints: np.ndarray, rate: int) -> bytes:

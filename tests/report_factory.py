@@ -8,6 +8,7 @@ Nothing here is the product's physics: it only feeds the writers something reali
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from dataclasses import dataclass, field
 from typing import Any
@@ -276,3 +277,51 @@ def make_result(n_panels: int = 6, n_flagged: int | None = None, *, tricky: bool
     )
     return AuditResult(schedule=schedule, panels=tuple(results), excitations=ex, ruleset=rules,
                        problems=tuple(problems), version="0.1.0", created="2024-05-14T10:32:00")
+
+
+def with_source_file(result: AuditResult, path: str) -> AuditResult:
+    """The same result as if every record had been read from ``path`` (for the writers that
+    open the schedule again: the audited workbook)."""
+    def moved(record):
+        return dataclasses.replace(record, source=dataclasses.replace(record.source, file=path))
+
+    panels = tuple(dataclasses.replace(p, panel=moved(p.panel)) for p in result.panels)
+    problems = tuple(dataclasses.replace(q, file=path) for q in result.problems)
+    schedule = dataclasses.replace(
+        result.schedule, panels=tuple(p.panel for p in panels),
+        equipment=tuple(moved(e) for e in result.schedule.equipment), problems=problems,
+        files=tuple(dataclasses.replace(f, path=path) for f in result.schedule.files))
+    return dataclasses.replace(result, schedule=schedule, panels=panels, problems=problems)
+
+
+def renamed(result: AuditResult, panel_id: str, *, zone: str | None = None,
+            equipment: str | None = None) -> AuditResult:
+    """The result with its first flagged panel called ``panel_id`` (and, when given, in zone
+    ``zone`` and with the first item of equipment tagged ``equipment``): user text that
+    reaches every writer."""
+    first = next(k for k, p in enumerate(result.panels) if p.findings)
+    old = result.panels[first]
+    tag = old.findings[0].excitation.equipment
+    new_tag = tag if equipment is None else equipment
+
+    def excitation(e: Excitation) -> Excitation:
+        return dataclasses.replace(e, equipment=new_tag) if e.equipment == tag else e
+
+    panel = dataclasses.replace(old.panel, panel=panel_id,
+                                zone=old.panel.zone if zone is None else zone)
+    findings = tuple(dataclasses.replace(f, panel=panel_id, excitation=excitation(f.excitation))
+                     for f in old.findings)
+    panels = list(result.panels)
+    panels[first] = dataclasses.replace(old, panel=panel, findings=findings)
+    excitations = tuple((new_tag if t == tag else t, tuple(excitation(e) for e in group))
+                        for t, group in result.excitations)
+    equipment_records = tuple(dataclasses.replace(e, equipment=new_tag) if e.equipment == tag
+                              else e for e in result.schedule.equipment)
+    if zone is not None:  # the equipment still reaches the panel
+        equipment_records = tuple(dataclasses.replace(e, zones=tuple(e.zones or ()) + (zone,))
+                                  for e in equipment_records)
+    schedule = dataclasses.replace(
+        result.schedule, equipment=equipment_records,
+        panels=tuple(panel if p is old.panel else p for p in result.schedule.panels))
+    return dataclasses.replace(result, schedule=schedule, panels=tuple(panels),
+                               excitations=excitations)

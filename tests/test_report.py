@@ -1,17 +1,37 @@
-"""The PDF audit: read back with pypdf, and its figure pieces checked against analytic facts."""
+"""The report writers: the PDF read back with pypdf, its figure pieces checked against analytic
+facts, and every output (PDF, JSON, CSV, xlsx) checked for what a spreadsheet or a reader may
+be handed: characters XML forbids, formulas, markup, local folders, file permissions."""
 
 from __future__ import annotations
 
+import csv
+import dataclasses
+import hashlib
+import io
+import json
 import math
+import os
 import re
+import stat
+import zipfile
 
 import numpy as np
+import openpyxl
 import pytest
 from pypdf import PdfReader
 from scipy.special import jn_zeros
 from xml.sax.saxutils import escape
 
+from auditor.atomic import write_atomic
+from auditor.model import RowProblem
 from auditor.report import pdf as pdf_module
+from auditor.report.exports import (
+    findings_csv,
+    findings_json,
+    write_audited_workbooks,
+    write_csv,
+    write_json,
+)
 from auditor.report.figures import (
     frequency_axis_range,
     interference_chart,
@@ -21,9 +41,30 @@ from auditor.report.figures import (
     mode_shape_drawing,
     participation_marker_radius,
 )
-from auditor.report.pdf import ReportError, bundled_template_dir, load_report_template, write_pdf
-from auditor.report.text import format_date, markup, parse_text_blocks, to_latin1
-from report_factory import LONG_ID, TRICKY_ID, circle_shape, make_result, rectangle_shape
+from auditor.report.pdf import (
+    ReportError,
+    bundled_template_dir,
+    in_column_unit,
+    load_report_template,
+    write_pdf,
+)
+from auditor.report.text import (
+    LocalPaths,
+    clean_text,
+    format_date,
+    markup,
+    parse_text_blocks,
+    to_latin1,
+)
+from report_factory import (
+    LONG_ID,
+    TRICKY_ID,
+    circle_shape,
+    make_result,
+    rectangle_shape,
+    renamed,
+    with_source_file,
+)
 
 
 def _squash(text: str) -> str:
@@ -325,3 +366,374 @@ def test_text_blocks_parser():
     assert [(b.kind, b.text, b.level) for b in blocks] == [
         ("heading", "Title", 1), ("paragraph", "One paragraph.", 0),
         ("bullet", "a bullet continued", 0), ("bullet", "second", 0), ("heading", "Sub", 2)]
+
+
+# --- every output opens, whatever text the schedule held ---------------------------------------
+
+# W3C XML 1.0 (fifth edition), §2.2: Char ::= #x9 | #xA | #xD | [#x20-#xD7FF] | [#xE000-#xFFFD]
+# | [#x10000-#x10FFFF]. An xlsx part is XML, so no other character may reach one.
+XML_TEXT = re.compile("[\t\n\r\x20-\ud7ff\ue000-\ufffd\U00010000-\U0010ffff]*")
+
+
+def _pdf_text(path) -> str:
+    reader = PdfReader(str(path))
+    return "\n".join(page.extract_text() or "" for page in reader.pages)
+
+
+def _xlsx_text(path) -> str:
+    with zipfile.ZipFile(path) as archive:
+        return "\n".join(archive.read(name).decode("utf-8") for name in archive.namelist())
+
+
+def _schedule_workbook(path, result) -> None:
+    """A workbook with the rows the result's records point at (sheet "Panels", rows 3...)."""
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws.title = "Panels"
+    ws.append(["Ceiling schedule"])
+    ws.append(["Panel", "Zone", "Width (mm)"])
+    for k in range(len(result.panels) + 40):
+        ws.append([f"row {k + 3}", "office", 1200])
+    wb.create_sheet("Equipment").append(["Equipment", "Kind"])
+    wb.save(path)
+
+
+def test_clean_text_leaves_only_characters_xml_and_openpyxl_accept():
+    from openpyxl.cell.cell import ILLEGAL_CHARACTERS_RE
+
+    every = "".join(chr(c) for c in range(0x110000))  # every code point, surrogates included
+    cleaned = clean_text(every)
+    assert len(cleaned) == len(every)  # one for one: nothing runs together
+    assert XML_TEXT.fullmatch(cleaned)
+    assert not ILLEGAL_CHARACTERS_RE.search(cleaned)  # openpyxl's own test of a cell's text
+    cleaned.encode("utf-8")  # no lone surrogate is left (UTF-8 cannot carry one)
+    sample = 'Panel <b>&"x"</b> ρs 0.25 kg/m² ±10 %\tA\r\nB'
+    assert clean_text(sample) == sample  # printable text, tabs and line breaks untouched
+    assert clean_text("F-0\x076") == "F-0\ufffd6"
+
+
+def test_control_characters_in_the_schedule_stop_no_writer(tmp_path):
+    source = tmp_path / "project.xlsx"
+    base = make_result(n_panels=6, n_flagged=3, n_problems=2)
+    _schedule_workbook(source, base)
+    result = renamed(with_source_file(base, str(source)), "F-0\x076", zone="Foyer\x1b",
+                     equipment="AHU\x00-1")
+    bad = RowProblem(str(source), "Panels", 30, "Tension (N/m)", "not a number: '\x07'",
+                     text="\x07\ud800", record="X-\x0b1")
+    result = dataclasses.replace(result, problems=result.problems + (bad,))
+    out = tmp_path / "out"
+    paths = [write_json(result, out / "findings.json"), write_csv(result, out / "findings.csv"),
+             *write_audited_workbooks(result, out), write_pdf(result, out / "audit.pdf")]
+    assert [p.name for p in paths] == ["findings.json", "findings.csv", "project-audited.xlsx",
+                                       "audit.pdf"]
+    for path in paths[:3]:  # valid UTF-8 with only characters XML allows
+        text = (_xlsx_text(path) if path.suffix == ".xlsx"
+                else path.read_bytes().decode("utf-8-sig"))
+        assert XML_TEXT.fullmatch(text), path
+    # JSON keeps the exact text, escaped (RFC 8259, §7: control characters are escaped)
+    doc = json.loads(paths[0].read_text(encoding="utf-8"))
+    assert "F-0\x076" in {p["panel"] for p in doc["panels"]}
+    assert doc["problems"][-1]["text"] == "\x07\ud800"
+    # CSV, xlsx and PDF show U+FFFD where the unprintable character was
+    with open(paths[1], newline="", encoding="utf-8-sig") as handle:
+        rows = list(csv.DictReader(handle))
+    assert {"F-0\ufffd6", "X-\ufffd1"} <= {r["panel"] for r in rows}
+    assert "AHU\ufffd-1" in {r["equipment"] for r in rows}
+    findings = openpyxl.load_workbook(paths[2])["Findings"]
+    assert "F-0\ufffd6" in {findings.cell(row=r, column=2).value
+                            for r in range(2, findings.max_row + 1)}
+    text = _pdf_text(paths[3])
+    assert "F-0\ufffd6" in text and "\x07" not in text
+
+
+def test_cli_audit_of_a_workbook_with_a_control_character_writes_everything(tmp_path):
+    # Excel stores a control character in a cell as the escape _x0007_ (ECMA-376 Part 1,
+    # §22.9.2.19 ST_Xstring); the reader decodes it, and every writer must still cope.
+    from typer.testing import CliRunner
+
+    from auditor.cli import app
+
+    plain = tmp_path / "plain.xlsx"
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws.title = "Panels"
+    ws.append(["Panel", "Zone", "Width (mm)", "Length (mm)", "Tension (N/m)",
+               "Areal density (g/m²)", "Room side", "Plenum side", "Notes"])
+    ws.append(["PANELBELL", "Office", 1200, 900, 800, 250, "none", "none", "NOTEBELL"])
+    eq = wb.create_sheet("Equipment")
+    eq.append(["Equipment", "Kind", "Zone", "rpm", "Blades"])
+    # blade-pass 6 x 1090/60 = 109 Hz, 3 % above the panel's f11 = ½√(T/ρs)√(1/Lx² + 1/Ly²)
+    eq.append(["FANBELL", "fan", "Office", 1090, 6])
+    wb.save(plain)
+    schedule = tmp_path / "bell.xlsx"
+    with zipfile.ZipFile(plain) as zin, zipfile.ZipFile(schedule, "w") as zout:
+        for item in zin.infolist():
+            data = zin.read(item.filename)
+            for word, escaped in ((b"PANELBELL", b"C_x0007_1"), (b"NOTEBELL", b"=1+2_x001b_"),
+                                  (b"FANBELL", b"AHU_x0007_1")):
+                data = data.replace(word, escaped)
+            zout.writestr(item, data)
+    out = tmp_path / "out"
+    got = CliRunner().invoke(app, ["audit", str(schedule), "--out", str(out)])
+    assert got.exit_code == 0, got.output
+    assert sorted(p.name for p in out.iterdir()) == [
+        "audit.pdf", "bell-audited.xlsx", "findings.csv", "findings.json"]
+    workbook = openpyxl.load_workbook(out / "bell-audited.xlsx")
+    assert "Audit status" in [c.value for c in workbook["Panels"][1]]
+    assert len(PdfReader(str(out / "audit.pdf")).pages) >= 3
+
+
+# --- formulas: OWASP, "CSV Injection" ---------------------------------------------------------
+
+FORMULAS = ("=1+2", "+SUM(A1:A9)", "-2+3", "@SUM(A1)", "\t=1+2", "\r=1+2")
+
+
+def _formula_result(tmp_path):
+    source = tmp_path / "project.xlsx"
+    base = make_result(n_panels=5, n_flagged=3, n_problems=0)
+    _schedule_workbook(source, base)
+    result = renamed(with_source_file(base, str(source)), FORMULAS[0], zone=FORMULAS[1],
+                     equipment=FORMULAS[2])
+    problems = tuple(RowProblem(str(source), "Panels", 30 + k, "Zone", text, text=text,
+                                record=text) for k, text in enumerate(FORMULAS[3:]))
+    problems += (RowProblem(str(source), "Panels", 40, "Panel", "#N/A", record="#N/A"),)
+    return dataclasses.replace(result, problems=problems)
+
+
+def test_formula_text_is_inert_in_csv_and_numbers_stay_numbers(tmp_path):
+    # OWASP, "CSV Injection": a cell starting with = + - @ tab or carriage return is prefixed
+    # with a single quote so that a spreadsheet shows it as text.
+    result = _formula_result(tmp_path)
+    rows = list(csv.DictReader(io.StringIO(findings_csv(result))))
+    cells = {v for r in rows for v in r.values()}
+    for text in FORMULAS:
+        assert "'" + text in cells, text
+        assert text not in cells
+    assert not [v for v in cells if v and v[0] in "=+@\t\r"]
+    separations = [r["separation_percent"] for r in rows
+                   if r["severity"] in ("conflict", "caution")]
+    negative = [v for v in separations if v.startswith("-")]
+    assert negative and all(float(v) < 0 for v in negative)  # a negative number is not text
+    assert all(not v.startswith("'") for v in separations)
+
+
+def test_formula_text_is_a_string_cell_in_xlsx_and_numbers_stay_numbers(tmp_path):
+    # ECMA-376 Part 1, §18.18.11 ST_CellType: "s" is a (shared) string, "n" a number, "e" an
+    # error, and a cell with an <f> element is a formula. openpyxl makes any text starting
+    # with "=" a formula and "#N/A" an error unless told it is a string.
+    result = _formula_result(tmp_path)
+    (path,) = write_audited_workbooks(result, tmp_path / "out")
+    wb = openpyxl.load_workbook(path)
+    for name in ("Findings", "Rejected rows"):
+        for row in wb[name].iter_rows(min_row=2):
+            for cell in row:
+                if cell.value is None:
+                    continue
+                assert cell.data_type in ("s", "n"), (name, cell.coordinate, cell.value)
+                if cell.data_type == "s":
+                    assert cell.value[0] not in "=+-@\t\r", (cell.coordinate, cell.value)
+    findings = wb["Findings"]
+    head = [c.value for c in findings[1]]
+    ids = [findings.cell(row=r, column=2).value for r in range(2, findings.max_row + 1)]
+    assert "'=1+2" in ids
+    separation = head.index("separation_percent") + 1
+    values = [findings.cell(row=r, column=separation) for r in range(2, findings.max_row + 1)]
+    assert any(c.data_type == "n" and c.value < 0 for c in values)
+    rejected = wb["Rejected rows"]
+    records = {rejected.cell(row=r, column=2).value for r in range(2, rejected.max_row + 1)}
+    # W3C XML 1.0, §2.11: a parser reads a lone carriage return as a line feed
+    assert {"'@SUM(A1)", "'\t=1+2", "'\n=1+2", "#N/A"} <= records
+    with zipfile.ZipFile(path) as archive:
+        sheets = [n for n in archive.namelist() if n.startswith("xl/worksheets/")]
+        assert not any(b"<f>" in archive.read(n) for n in sheets)  # no formula anywhere
+
+
+def test_csv_schedule_copy_keeps_numbers_and_neutralises_formulas(tmp_path):
+    source = tmp_path / "project.csv"
+    base = make_result(n_panels=3, n_flagged=2, n_problems=0)
+    lines = ["Ceiling schedule,,,", "Panel,Zone,Width (mm),Notes"]
+    lines += [f"{p.panel.panel if k else 'CL-1'},office,-5,=1+2" for k, p in enumerate(base.panels)]
+    lines += ["007,office,1200.5,@SUM(A1)"] * 40
+    source.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    result = with_source_file(base, str(source))
+    (path,) = write_audited_workbooks(result, tmp_path / "out")
+    ws = openpyxl.load_workbook(path).worksheets[0]
+    assert ws.title == "project"
+    # common practice: a number stays a number, a negative one too
+    assert ws["C3"].value == -5 and ws["C3"].data_type == "n"
+    assert ws["D3"].value == "'=1+2" and ws["D3"].data_type == "s"
+    assert ws["A6"].value == "007" and ws["C6"].value == 1200.5  # an id keeps its zeros
+
+
+# --- files follow the umask; atomic ------------------------------------------------------------
+
+@pytest.mark.skipif(os.name != "posix", reason="POSIX permission bits")
+@pytest.mark.parametrize("mask", [0o022, 0o077, 0o002])
+def test_outputs_follow_the_umask(tmp_path, mask):
+    # POSIX open(): a new file's permission bits are the mode asked for less the umask, and
+    # tools ask for 0o666 (common practice), so an output is 0o644 under umask 022.
+    source = tmp_path / "project.xlsx"
+    result = with_source_file(make_result(n_panels=2, n_flagged=1, n_problems=1), str(source))
+    _schedule_workbook(source, result)
+    out = tmp_path / "out"
+    out.mkdir()
+    old = os.umask(mask)
+    try:
+        written = [write_json(result, out / "findings.json"), write_csv(result, out / "f.csv"),
+                   *write_audited_workbooks(result, out), write_pdf(result, out / "audit.pdf")]
+    finally:
+        os.umask(old)
+    for path in written:
+        assert stat.S_IMODE(path.stat().st_mode) == 0o666 & ~mask, path.name
+    assert sorted(p.name for p in out.iterdir()) == sorted(p.name for p in written)
+
+
+def test_write_atomic_keeps_the_old_file_when_writing_fails(tmp_path):
+    target = tmp_path / "findings.json"
+    target.write_bytes(b"old")
+
+    def half_then_fail(handle):
+        handle.write(b"half")
+        raise RuntimeError("stopped")
+
+    with pytest.raises(RuntimeError):
+        write_atomic(target, half_then_fail)
+    assert target.read_bytes() == b"old"
+    assert list(tmp_path.iterdir()) == [target]  # the temporary file is gone
+    write_atomic(target, "ρs", encoding="utf-8-sig")
+    assert target.read_bytes() == b"\xef\xbb\xbf" + "ρs".encode()  # UTF-8 byte-order mark
+    with pytest.raises(FileNotFoundError) as error:
+        write_atomic(tmp_path / "missing" / "x.json", b"{}")
+    assert error.value.filename == str(tmp_path / "missing" / "x.json")
+
+
+# --- no local folder in any output -------------------------------------------------------------
+
+def test_no_output_names_a_local_folder(tmp_path):
+    from typer.testing import CliRunner
+
+    from auditor.cli import app
+
+    folder = tmp_path / "site-survey-input-folder-5f1d29c7e0a84b36-never-printed"
+    folder.mkdir()
+    schedule = folder / "s.xlsx"
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws.title = "Panels"
+    ws.append(["Panel", "Zone", "Width (mm)", "Length (mm)", "Tension (N/m)",
+               "Areal density (g/m²)", "Room side", "Plenum side", "Tap test"])
+    ws.append(["C-1", "Office", 1200, 900, 800, 250, "none", "none", "taps/C-1.wav"])
+    ws.append(["C-2", "Office", -5, 900, 800, 250, "none", "none", None])
+    eq = wb.create_sheet("Equipment")
+    eq.append(["Equipment", "Kind", "Zone", "rpm", "Blades"])
+    eq.append(["AHU-1", "fan", "Office", 1090, 6])
+    wb.save(schedule)
+    rules = folder / "our-office.toml"
+    rules.write_text('name = "our-office"\ndescription = "Our own margins."\n', encoding="utf-8")
+    out = tmp_path / "out"
+    got = CliRunner().invoke(app, ["audit", str(schedule), str(folder / "missing.xlsx"),
+                                   "--rules", str(rules), "--out", str(out), "--calibrated"])
+    assert got.exit_code == 0, got.output
+    texts = {
+        "findings.json": (out / "findings.json").read_text(encoding="utf-8"),
+        "findings.csv": (out / "findings.csv").read_text(encoding="utf-8-sig"),
+        "s-audited.xlsx": _xlsx_text(out / "s-audited.xlsx"),
+        "audit.pdf": _pdf_text(out / "audit.pdf"),
+    }
+    reader = PdfReader(str(out / "audit.pdf"))
+    texts["pdf metadata"] = " ".join(str(v) for v in (reader.metadata or {}).values())
+    texts["pdf outline"] = " ".join(str(item.title) for item in reader.outline
+                                    if not isinstance(item, list))
+    for name, text in texts.items():
+        flat = re.sub(r"\s+", "", text)
+        assert folder.name not in flat and str(tmp_path) not in text, name
+    assert folder.name.encode() not in (out / "audit.pdf").read_bytes()
+    # inputs by file name and SHA-256; the user's rule set by file name and SHA-256
+    schedule_sha = hashlib.sha256(schedule.read_bytes()).hexdigest()
+    rules_sha = hashlib.sha256(rules.read_bytes()).hexdigest()
+    doc = json.loads(texts["findings.json"])
+    assert {"name": "s.xlsx", "sha256": schedule_sha} in [
+        {k: f.get(k) for k in ("name", "sha256")} for f in doc["files"]]
+    assert "missing.xlsx" in {q["file"] for q in doc["problems"]}
+    rules_text = json.dumps(doc["rules"])
+    assert "our-office.toml" in rules_text and rules_sha[:12] in rules_text
+    pdf = _squash(texts["audit.pdf"])
+    assert schedule_sha in pdf and "s.xlsx" in pdf
+    assert "our-office.toml" in pdf and rules_sha[:12] in pdf
+
+
+def test_factory_paths_stay_out_of_the_pdf(written):
+    _, reader, pages = written
+    text = _squash("\n".join(pages))
+    assert "/projects/riverside" not in text and "/work/main" not in text
+    assert "project.xlsx" in _squash(pages[0])
+
+
+def test_local_paths_become_file_names():
+    named = LocalPaths({"/srv/job-1/s.xlsx": "s.xlsx", "s.xlsx": "s.xlsx"})
+    assert named.name("/srv/job-1/s.xlsx") == "s.xlsx"
+    assert named.name("site-a/s.xlsx") == "site-a/s.xlsx"  # a name as the reader shows it
+    assert named.name("/elsewhere/t.csv") == "t.csv" and named.name("C:\\x\\q.xlsx") == "q.xlsx"
+    paths = LocalPaths({"/srv/job-1/s.xlsx": "s.xlsx"}, ["/srv/job-1"])
+    assert paths.scrub("/srv/job-1/s.xlsx could not be read") == "s.xlsx could not be read"
+    assert paths.scrub("tap-test recording '/srv/job-1/taps/a.wav' not found") == \
+        "tap-test recording 'taps/a.wav' not found"
+    assert paths.scrub("see C:\\Users\\someone\\rules.toml") == "see rules.toml"
+    units = "900 N/m, 0.25 kg/m², 1/3 octave, Pa·s/m, ±10 %/±20 %"
+    assert paths.scrub(units) == units  # units are not paths
+
+
+# --- markup prints literally -------------------------------------------------------------------
+
+def test_markup_in_any_user_text_prints_literally(tmp_path):
+    # reportlab's Paragraph reads an XML-like markup (ReportLab User Guide, ch. 6: <b>, <font>,
+    # <para>, <br/>, entities); text from a schedule must come out exactly as typed.
+    result = renamed(make_result(n_panels=3, n_flagged=2, tricky=False, n_problems=1),
+                     "<b>X</b>", zone="<font color='red'>Z</font>", equipment="A&amp;B")
+    project = dataclasses.replace(result.schedule.project, name="<para>P</para> & Co",
+                                  client="Q<br/>R")
+    problem = dataclasses.replace(result.problems[0], message="<i>not</i> a number",
+                                  text="<u>tight</u>")
+    result = dataclasses.replace(result, problems=(problem,), schedule=dataclasses.replace(
+        result.schedule, project=project, problems=(problem,)))
+    text = _squash(_pdf_text(write_pdf(result, tmp_path / "markup.pdf")))
+    for typed in ("<b>X</b>", "<font color='red'>Z</font>", "A&amp;B", "<para>P</para>&Co",
+                  "Q<br/>R", "<i>not</i>anumber", "<u>tight</u>", "Panel<b>X</b>"):
+        assert _squash(typed) in text, typed
+
+
+# --- panel data in the units of their columns --------------------------------------------------
+
+def test_panel_data_in_the_unit_of_its_column(tmp_path):
+    # NIST SP 811 (2008), Appendix B: 1 in = 0.0254 m and 1 ft = 0.3048 m exactly,
+    # 1 oz = 28.349 523 125 g, 1 yd² = 0.836 127 36 m², 1 lbf = 4.448 221 615 260 5 N.
+    assert in_column_unit("Diameter (mm)", "96 in") == "2438 (typed 96 in)"      # 2438.4 mm
+    assert in_column_unit("Width (mm)", "16 ft") == "4877 (typed 16 ft)"         # 4876.8 mm
+    assert in_column_unit("Areal density (g/m²)", "10 oz/yd²") == "339.1 (typed 10 oz/yd²)"
+    assert in_column_unit("Tension (N/m)", "40 lbf/in") == "7005 (typed 40 lbf/in)"  # 7005.07
+    assert in_column_unit("Max tension (kN/m)", "1500 N/m") == "1.5 (typed 1500 N/m)"
+    for header, typed in (("Width (mm)", "1200"), ("Width (mm)", "1200 mm"),
+                          ("Zone", "Foyer"), ("Width (mm)", "about 2 m"),
+                          ("Outline (mm)", "0,0; 10 in,0; 10 in,10 in")):
+        assert in_column_unit(header, typed) == typed
+    assert in_column_unit("Tension x", "800") == "800 N/m"  # the column's default unit
+    base = make_result(n_panels=4, n_flagged=4, tricky=False, n_problems=0)
+    circle = next(k for k, p in enumerate(base.panels) if p.panel.shape == "circle")
+    panel = base.panels[circle].panel
+    entered = tuple((h, "96 in" if h == "Diameter (mm)" else t) for h, t in panel.entered)
+    panels = list(base.panels)
+    panels[circle] = dataclasses.replace(panels[circle],
+                                         panel=dataclasses.replace(panel, entered=entered))
+    text = _squash(_pdf_text(write_pdf(dataclasses.replace(base, panels=tuple(panels)),
+                                       tmp_path / "units.pdf")))
+    assert "Diameter(mm)2438(typed96in)" in text
+
+
+# --- same result, same file --------------------------------------------------------------------
+
+def test_same_result_gives_the_same_pdf_dated_by_the_audit(result, written, tmp_path):
+    again = write_pdf(result, tmp_path / "again.pdf")
+    assert again.read_bytes() == written[0].read_bytes()
+    # PDF 32000-1:2008, §7.9.4: a date is "D:YYYYMMDDHHmmSS"; the report is dated by the audit
+    assert PdfReader(str(again)).metadata["/CreationDate"].startswith("D:20240514103200")
+    assert findings_json(result) == findings_json(result)

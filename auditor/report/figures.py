@@ -31,7 +31,7 @@ from reportlab.lib.colors import Color, HexColor, white
 from reportlab.pdfbase.pdfmetrics import stringWidth
 
 from auditor.model import CircleCutout, Excitation, Mode, Panel, PanelResult, ShapeGrid
-from auditor.report.text import format_hz
+from auditor.report.text import clean_text, format_hz, to_latin1
 
 __all__ = [
     "FigureStyle",
@@ -77,6 +77,14 @@ class FigureStyle:
     nodal: str = "#111111"
     outline: str = "#111111"
     cutout: str = "#eeeeee"
+    #: True when the fonts are the PDF base fonts, which show only Western European text
+    latin1: bool = False
+
+    def label(self, text: object) -> str:
+        """A string as a figure draws it: literally (a drawing's strings are never markup),
+        unprintable characters as U+FFFD (or "?" with the base fonts)."""
+        shown = clean_text(text)
+        return to_latin1(shown) if self.latin1 else shown
 
 
 def _colour(hex_string: str, alpha: float | None = None) -> Color:
@@ -631,13 +639,14 @@ def mode_shape_drawing(shape: ShapeGrid, panel: Panel | None, mode: Mode | None,
                          fillColor=None, strokeColor=outline, strokeWidth=1.0))
 
     label = mode.label if mode is not None else shape.label
-    text = f"mode {label}"
+    text = style.label(f"mode {label}")
     if mode is not None:
         text += f"   {format_hz(mode.frequency_hz)} Hz"
     drawing.add(String(width / 2.0, caption_height - 10.0, text, fontName=style.font_bold,
                        fontSize=7.5, fillColor=_colour(style.text), textAnchor="middle"))
     if note:
-        drawing.add(String(width / 2.0, caption_height - 19.5, note, fontName=style.font,
+        drawing.add(String(width / 2.0, caption_height - 19.5, style.label(note),
+                           fontName=style.font,
                            fontSize=6.5, fillColor=_colour(style.axis), textAnchor="middle"))
     return drawing
 
@@ -824,11 +833,11 @@ def interference_chart(result: PanelResult, excitations: Sequence[Excitation], *
                        strokeColor=None, strokeWidth=0))
             for xe in (x0, x1):
                 d.add(Line(xe, plot_y0, xe, plot_y1, strokeColor=colour, strokeWidth=weight * 0.7))
-            placed.append((x0, excitation_label(e), colour))
+            placed.append((x0, style.label(excitation_label(e)), colour))
         else:
             xe = fx(e.frequency_hz)
             d.add(Line(xe, plot_y0, xe, plot_y1, strokeColor=colour, strokeWidth=weight))
-            placed.append((xe, excitation_label(e), colour))
+            placed.append((xe, style.label(excitation_label(e)), colour))
 
     # labels above the plot, greedy lanes so they do not overlap
     lane_end = [-1e9] * n_label_lanes
@@ -872,7 +881,7 @@ def interference_chart(result: PanelResult, excitations: Sequence[Excitation], *
         else:
             d.add(Circle(xm, mode_y, r, fillColor=colour, strokeColor=white, strokeWidth=0.4))
         if sev:
-            d.add(String(xm, mode_y + r + 2.5, mode.label, fontName=font, fontSize=6,
+            d.add(String(xm, mode_y + r + 2.5, style.label(mode.label), fontName=font, fontSize=6,
                          fillColor=colour, textAnchor="middle"))
     measured = _colour(style.measured)
     for f in result.measured_peaks_hz:

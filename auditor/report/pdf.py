@@ -10,10 +10,11 @@ physics.
 
 from __future__ import annotations
 
+import hashlib
 import os
-import tempfile
 import tomllib
 from dataclasses import dataclass, fields
+from datetime import datetime
 from functools import lru_cache
 from pathlib import Path
 from typing import Any, Callable, Iterable, Sequence
@@ -44,11 +45,14 @@ from reportlab.platypus import (
     TableStyle,
 )
 
+from auditor.atomic import write_atomic
 from auditor.model import AuditResult, Excitation, Finding, Panel, PanelResult
 from auditor.remedy import SAFETY_NOTE
+from auditor.report.exports import local_paths, ruleset_origin
 from auditor.report.figures import FigureStyle, interference_chart, mode_shape_drawing, shape_legend
 from auditor.report.text import (
     Block,
+    clean_text,
     format_band_hz,
     format_date,
     format_hz,
@@ -310,12 +314,15 @@ def _register_fonts(paths: tuple[str, str, str, str]) -> _Fonts:
         if not path:
             names.append(names[0] if names else "Helvetica")
             continue
-        name = f"AuditorFont-{role}-{abs(hash(path)) % 10**8}"
+        # named by a digest of the file's path: the same in every run (hash() of a str is
+        # salted per process), and the path itself never appears in the document
+        name = f"AuditorFont-{role}-{hashlib.sha256(path.encode()).hexdigest()[:8]}"
         if name not in pdfmetrics.getRegisteredFontNames():
             try:
                 pdfmetrics.registerFont(TTFont(name, path))
             except Exception as err:  # a damaged or unsupported font file
-                raise ReportError(f"the font file {path} cannot be used ({err})") from None
+                raise ReportError(f"the font file {os.path.basename(path)} cannot be used "
+                                  f"({err})") from None
         names.append(name)
     pdfmetrics.registerFontFamily(names[0], normal=names[0], bold=names[1], italic=names[2],
                                   boldItalic=names[1])
@@ -326,13 +333,36 @@ def _register_fonts(paths: tuple[str, str, str, str]) -> _Fonts:
 # Page furniture: header, footer, "page N of M"
 # ---------------------------------------------------------------------------------------------
 
-def _numbered_canvas(fonts: _Fonts, colour: colors.Color) -> type[Canvas]:
+def _pdf_date(iso: str) -> str | None:
+    """An ISO 8601 date-time as a PDF date string ("D:20240514103200"), None if unreadable."""
+    try:
+        moment = datetime.fromisoformat((iso or "").strip().replace("Z", "+00:00"))
+    except ValueError:
+        return None
+    text = f"D:{moment:%Y%m%d%H%M%S}"
+    offset = moment.utcoffset()
+    if offset is not None:
+        minutes = int(offset.total_seconds() // 60)
+        sign = "+" if minutes >= 0 else "-"
+        text += f"{sign}{abs(minutes) // 60:02d}'{abs(minutes) % 60:02d}'"
+    return text
+
+
+def _numbered_canvas(fonts: _Fonts, colour: colors.Color, created: str = "") -> type[Canvas]:
+    pdf_date = _pdf_date(created)
+
     class NumberedCanvas(Canvas):
-        """Keeps each finished page until the end, then stamps "page N of M" on all of them."""
+        """Keeps each finished page until the end, then stamps "page N of M" on all of them.
+
+        The document's creation date is the audit's (``AuditResult.created``), not the clock's,
+        so one result always gives the same file.
+        """
 
         def __init__(self, *args: Any, **kwargs: Any) -> None:
             super().__init__(*args, **kwargs)
             self._saved_pages: list[dict[str, Any]] = []
+            if pdf_date is not None:
+                self.setDateFormatter(lambda *_: pdf_date)
 
         def showPage(self) -> None:  # noqa: N802 (reportlab's name)
             self._saved_pages.append(dict(self.__dict__))
@@ -414,25 +444,13 @@ def write_pdf(result: AuditResult, path: str | os.PathLike[str], *, detail: str 
         raise ReportError(f"cannot write {target}: it is a folder")
     template = load_report_template(template_dir)
     builder = _ReportBuilder(result, template, detail, progress)
-    handle, temporary = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=folder)
-    os.close(handle)
     try:
-        builder.build(temporary)
-        os.replace(temporary, target)
+        write_atomic(target, builder.build)
     except PermissionError as err:
-        _remove_quietly(temporary)
         raise ReportError(f"cannot write {target}: permission denied ({err.strerror})") from None
-    except BaseException:
-        _remove_quietly(temporary)
-        raise
+    except OSError as err:
+        raise ReportError(f"cannot write {target}: {err.strerror or err}") from None
     return target
-
-
-def _remove_quietly(path: str) -> None:
-    try:
-        os.unlink(path)
-    except OSError:
-        pass
 
 
 def _rule(name: str, ruleset: Any, default: Any = None) -> Any:
@@ -458,8 +476,9 @@ class _ReportBuilder:
             mode=c.mode, conflict=c.conflict, caution=c.caution, excitation=c.excitation,
             conflict_window=c.conflict_window, caution_window=c.caution_window, band=c.band,
             measured=c.measured, positive=c.positive, negative=c.negative, nodal=c.nodal,
-            outline=c.text,
+            outline=c.text, latin1=not self.fonts.unicode,
         )
+        self.paths = local_paths(result)
         self._styles()
         self.report_panels = [p for p in result.panels if detail == "all" or p.findings]
         self.done = 0
@@ -469,8 +488,11 @@ class _ReportBuilder:
 
     # -- text -------------------------------------------------------------------------------
     def t(self, value: object) -> str:
-        """Plain text for canvas and table strings (not markup)."""
-        text = "" if value is None else str(value)
+        """Plain text for canvas and table strings (not markup): unprintable characters shown
+        as U+FFFD, tabs as spaces, any line break as a new line."""
+        text = clean_text(value)
+        if "\t" in text or "\r" in text:
+            text = text.replace("\r\n", "\n").replace("\r", "\n").replace("\t", " ")
         return text if self.fonts.unicode else to_latin1(text)
 
     def m(self, value: object) -> str:
@@ -583,15 +605,18 @@ class _ReportBuilder:
             self.progress(min(self.done, self.total - 1), self.total)
 
     # -- document ---------------------------------------------------------------------------
-    def build(self, filename: str) -> None:
+    def build(self, output: Any) -> None:
+        """Lay out the report and write it to ``output`` (a file name or a binary file)."""
         result, template = self.result, self.template
         project = result.schedule.project
         doc = BaseDocTemplate(
-            filename, pagesize=A4, leftMargin=MARGIN_LEFT, rightMargin=MARGIN_RIGHT,
+            output, pagesize=A4, leftMargin=MARGIN_LEFT, rightMargin=MARGIN_RIGHT,
             topMargin=MARGIN_TOP, bottomMargin=MARGIN_BOTTOM,
             title=self.t(f"{template.title}: {project.name}" if project.name else template.title),
             author=self.t(self._firm_name()),
             subject=self.t(project.reference), creator=self.t(f"auditor {result.version}"),
+            # a document id from the content alone (not the clock): same result, same file
+            invariant=1,
         )
         frame = Frame(MARGIN_LEFT, MARGIN_BOTTOM, FRAME_WIDTH, PAGE_HEIGHT - MARGIN_TOP - MARGIN_BOTTOM,
                       leftPadding=0, rightPadding=0, topPadding=0, bottomPadding=0, id="body")
@@ -619,7 +644,8 @@ class _ReportBuilder:
         saved_a85 = rl_config.useA85
         rl_config.useA85 = 0
         try:
-            doc.build(story, canvasmaker=_numbered_canvas(self.fonts, self.colour["muted"]))
+            doc.build(story, canvasmaker=_numbered_canvas(self.fonts, self.colour["muted"],
+                                                          result.created))
         finally:
             rl_config.useA85 = saved_a85
         if self.progress is not None:
@@ -689,9 +715,9 @@ class _ReportBuilder:
         description = _rule("description", ruleset, "")
         if description:
             rule_text += f"<br/>{self.m(description)}"
-        rule_path = _rule("path", ruleset, "")
-        if rule_path:
-            rule_text += f"<br/><font size='6.8'>{self.m(rule_path)}</font>"
+        origin = ruleset_origin(ruleset) if ruleset is not None else ""
+        if origin:
+            rule_text += f"<br/><font size='6.8'>{self.m(origin)}</font>"
         facts = [
             ("Project", project.name), ("Reference", project.reference), ("Client", project.client),
             ("Prepared by", project.prepared_by), ("Prepared for", project.prepared_for),
@@ -713,7 +739,7 @@ class _ReportBuilder:
         if files:
             rows = [[self.para("File", "head"), self.para("SHA-256", "head")]]
             for f in files:
-                rows.append([self.para(self.m(f.path), "cell"),
+                rows.append([self.para(self.m(self.paths.name(f.path)), "cell"),
                              self.para(self.m(f.sha256), "mono")])
             out.append(self.table(rows, [0.36 * FRAME_WIDTH, 0.64 * FRAME_WIDTH], long=True))
         else:
@@ -869,15 +895,16 @@ class _ReportBuilder:
         out: list[Flowable] = [self.bookmark(f"Panel {panel.panel}", level=0, tick=True),
                                self.para(title, "h1")]
         src = panel.source
-        where = f"{src.file}" + (f", sheet {src.sheet}" if src.sheet else "") + f", row {src.row}"
+        where = (self.paths.name(src.file) + (f", sheet {src.sheet}" if src.sheet else "")
+                 + f", row {src.row}")
         out.append(self.para(f"Schedule: {self.m(where)}" + (f" &nbsp;\u00b7&nbsp; zone {self.m(panel.zone)}"
                                                               if panel.zone else ""), "caption"))
         out.append(self.panel_data_table(panel))
         out.append(Spacer(1, 3 * mm))
-        loading = f"<b>Loading model.</b> {self.m(pr.loading or 'not stated')}"
-        out.append(self.para(loading, "small"))
+        loading = self.paths.scrub(pr.loading or "not stated")
+        out.append(self.para(f"<b>Loading model.</b> {self.m(loading)}", "small"))
         for note in pr.notes:
-            out.append(self.para(self.m(note), "small"))
+            out.append(self.para(self.m(self.paths.scrub(note)), "small"))
         modes = sorted(pr.modes, key=lambda m: m.frequency_hz)
         if modes:
             listed = ", ".join(f"{self.m(m.label)} {format_hz(m.frequency_hz)}" for m in modes[:14])
@@ -907,7 +934,8 @@ class _ReportBuilder:
         return out
 
     def panel_data_table(self, panel: Panel) -> Table:
-        pairs = list(panel.entered) or _panel_si_fields(panel)
+        pairs = [(header, in_column_unit(header, text)) for header, text in panel.entered]
+        pairs = pairs or _panel_si_fields(panel)
         rows: list[list[Any]] = []
         w = FRAME_WIDTH
         for k in range(0, len(pairs), 2):
@@ -968,10 +996,11 @@ class _ReportBuilder:
         extra: list[tuple] = []
         for r, p in enumerate(problems, start=1):
             cw = [w * FRAME_WIDTH for w in widths]
-            rows.append([p.severity, self.cell(p.file or "-", cw[1]),
+            message = self.paths.scrub(p.message) + (f" ({p.record})" if p.record else "")
+            rows.append([p.severity, self.cell(self.paths.name(p.file) or "-", cw[1]),
                          self.cell(p.sheet or "-", cw[2]), "-" if p.row is None else str(p.row),
                          self.cell(p.column or "-", cw[4]), self.cell(p.text or "-", cw[5]),
-                         self.cell(p.message + (f" ({p.record})" if p.record else ""), cw[6])])
+                         self.cell(message, cw[6])])
             extra.append(("TEXTCOLOR", (0, r), (0, r),
                           self.colour["conflict"] if p.severity == "error" else self.colour["caution"]))
         extra.append(("ALIGN", (3, 1), (3, -1), "RIGHT"))
@@ -1003,7 +1032,8 @@ class _ReportBuilder:
         out += self.ruleset_section()
         loadings: dict[str, list[str]] = {}
         for pr in self.report_panels:
-            loadings.setdefault(pr.loading or "not stated", []).append(pr.panel.panel)
+            loadings.setdefault(self.paths.scrub(pr.loading or "not stated"), []).append(
+                pr.panel.panel)
         if loadings:
             out.append(self.para("Loading models used for the panels in this report", "h2"))
             for sentence, ids in loadings.items():
@@ -1032,9 +1062,9 @@ class _ReportBuilder:
         harmonics = ", ".join(f"{kind} {count}" for kind, count in (_rule("harmonics", rs, ()) or ()))
         items = [
             ("Name", _rule("name", rs, "")), ("Description", _rule("description", rs, "")),
-            ("File", _rule("path", rs, "")),
+            ("Source", ruleset_origin(rs)),
             ("Modes considered", limit_text or "all computed"),
-            ("Modes per panel, at most", _rule("max_modes", rs, "-")),
+            ("Modes per panel, at most", _rule("max_modes", rs)),
             ("Harmonics by equipment kind", harmonics or "-"),
             ("Conflict margin", pct(_rule("conflict_margin", rs))),
             ("Caution margin", pct(_rule("caution_margin", rs))),
@@ -1044,8 +1074,7 @@ class _ReportBuilder:
             ("Strouhal number for vortex shedding", _rule("strouhal", rs, "-")),
             ("Default motor slip", _rule("default_slip", rs, "-")),
         ]
-        rows = [[self.para(f"<b>{k}</b>", "cell"),
-                 self.para(self.m(v), "cell") if k == "File" else self.user(v)]
+        rows = [[self.para(f"<b>{k}</b>", "cell"), self.user(v)]
                 for k, v in items if v not in (None, "")]
         out.append(self.table(rows, [0.38 * FRAME_WIDTH, 0.62 * FRAME_WIDTH], header=False))
         return out
@@ -1065,6 +1094,46 @@ def _clip(text: str, font: str, size: float, width: float) -> str:
     while text and pdfmetrics.stringWidth(text + "...", font, size) > width:
         text = text[:-1]
     return text + "..."
+
+
+def _plain_number(value: float) -> str:
+    """Four significant figures, and no exponent for a value of 1 or more: 2438, 0.25, 12192."""
+    text = f"{value:.4g}"
+    if "e" in text and 1.0 <= abs(value) < 1e12:
+        text = f"{value:.0f}"
+    return text
+
+
+def in_column_unit(header: str, text: str) -> str:
+    """A panel's cell as typed, shown in the unit its column heading states.
+
+    ``"96 in"`` under ``Diameter (mm)`` becomes ``"2438 (typed 96 in)"``, so the heading and
+    the value agree; a bare number under a heading with no unit gets the column's default unit
+    (``"800"`` under ``Tension x`` becomes ``"800 N/m"``, as the audit read it). Anything
+    else (a number in the heading's own unit, a word, an outline, text that is not a plain
+    quantity) is shown as typed.
+    """
+    from auditor.schedule import vocabulary
+    from auditor.units import split_number_unit, unit_factor
+
+    hit = vocabulary.match_header(header, vocabulary.PANELS)
+    if hit is None or hit[0].kind != "quantity" or not hit[0].dimension or "," in text:
+        return text
+    column, header_unit = hit
+    try:
+        value, typed_unit = split_number_unit(text.strip())
+        if not typed_unit:
+            default = column.default_unit
+            return f"{text.strip()} {default}" if header_unit is None and default else text
+        if header_unit is None:
+            return text
+        factor = unit_factor(typed_unit, column.dimension) / unit_factor(header_unit,
+                                                                           column.dimension)
+    except ValueError:  # not a plain quantity, or a unit the reader would have refused
+        return text
+    if abs(factor - 1.0) < 1e-12:
+        return text
+    return f"{_plain_number(value * factor)} (typed {text.strip()})"
 
 
 def _panel_si_fields(panel: Panel) -> list[tuple[str, str]]:

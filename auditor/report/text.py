@@ -13,6 +13,10 @@ from xml.sax.saxutils import escape
 
 __all__ = [
     "Block",
+    "clean_text",
+    "file_name",
+    "is_absolute_path",
+    "LocalPaths",
     "markup",
     "inline_markup",
     "parse_text_blocks",
@@ -23,6 +27,86 @@ __all__ = [
     "format_si",
     "to_latin1",
 ]
+
+
+#: Characters no output may carry: the C0 controls but tab, line feed and carriage return, DEL
+#: and the C1 controls, lone surrogates, and the non-characters U+FFFE and U+FFFF. XML 1.0
+#: (so an xlsx part) allows none of the C0 ones nor the last two (W3C XML 1.0, 5th ed., §2.2
+#: "Char"), openpyxl refuses them (``IllegalCharacterError``), a lone surrogate cannot be
+#: encoded as UTF-8, and a PDF font draws a control character as an empty box.
+_UNPRINTABLE = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\x7f-\x9f\ud800-\udfff\ufffe\uffff]")
+#: What an unprintable character becomes: the Unicode replacement character, so a reader sees
+#: that something was there rather than two neighbours run together.
+REPLACEMENT = "\ufffd"
+
+
+def clean_text(value: object) -> str:
+    """A string any writer can carry: each unprintable character becomes U+FFFD.
+
+    ``None`` becomes "". Tabs and line breaks are kept (each writer decides what they mean).
+    """
+    text = "" if value is None else str(value)
+    return _UNPRINTABLE.sub(REPLACEMENT, text) if _UNPRINTABLE.search(text) else text
+
+
+def file_name(path: str) -> str:
+    """The last part of a POSIX or Windows path."""
+    return re.split(r"[\\/]", path.rstrip("/\\"))[-1]
+
+
+def is_absolute_path(path: str) -> bool:
+    """True for a POSIX (/a, ~/a) or Windows (C:\\a, \\\\server\\a) absolute path."""
+    return bool(re.match(r"~?/|[A-Za-z]:[\\/]|\\\\", path))
+
+
+# An absolute path left in a message: POSIX (/a/b...), home (~/a...) or Windows (C:\a\...,
+# \\server\share\...), up to the first blank or quote. Used only on the program's own
+# messages, after the known input paths were replaced by their names.
+_ABSOLUTE_PATH = re.compile(
+    r"""(?<![\w./\\~:])(?:~?/|[A-Za-z]:[\\/]|\\\\)(?:[^\s/\\'"<>|]+[/\\])+[^\s/\\'"<>|]*""")
+
+
+class LocalPaths:
+    """Takes the local folders out of the program's messages, notes and file columns.
+
+    ``files`` maps each place an input file was read from (and its name as shown) to the name
+    outputs show; in a message, such a place becomes that name, a path inside one of
+    ``folders`` (a tap-test recording next to the schedule, say) loses the folder, and any
+    other absolute path keeps only its last part.
+    """
+
+    def __init__(self, files: dict[str, str], folders: Iterable[str] = ()) -> None:
+        self.files = dict(files)
+        known = sorted((p for p in self.files if p), key=len, reverse=True)
+        places = sorted({f.rstrip("/\\") for f in folders if f.rstrip("/\\")},
+                        key=len, reverse=True)
+        # a known path or folder only where it starts (not inside a longer word or path)
+        self._known = re.compile("(?<![\\w.~/\\\\])(?:" + "|".join(
+            [f"(?P<file>{'|'.join(map(re.escape, known))})" if known else "(?P<file>(?!))",
+             f"(?P<folder>(?:{'|'.join(map(re.escape, places))})[/\\\\])" if places
+             else "(?P<folder>(?!))"]) + ")")
+        self._done: dict[str, str] = {}  # texts already scrubbed (loadings repeat per panel)
+
+    def name(self, path: str) -> str:
+        """The name an input file goes by: as listed, else the name itself, or the file name
+        alone of an absolute path."""
+        hit = self.files.get(path)
+        if hit is not None:
+            return hit
+        return (file_name(path) or path) if is_absolute_path(path) else path
+
+    def scrub(self, text: str) -> str:
+        """``text`` with every local path replaced by a file name (or a relative path)."""
+        if not text or not ("/" in text or "\\" in text):
+            return text
+        done = self._done.get(text)
+        if done is None:
+            done = self._done[text] = self._scrub(text)
+        return done
+
+    def _scrub(self, text: str) -> str:
+        text = self._known.sub(lambda m: self.files[m["file"]] if m["file"] else "", text)
+        return _ABSOLUTE_PATH.sub(lambda m: file_name(m.group(0)), text)
 
 
 def markup(text: object) -> str:

@@ -10,6 +10,7 @@ import datetime as _dt
 import os
 from pathlib import Path
 
+from auditor.atomic import write_atomic
 from auditor.schedule import vocabulary as vocab
 from auditor.units import known_units
 
@@ -170,11 +171,4 @@ def write_template(path: str | os.PathLike, *, overwrite: bool = False) -> Path:
     if target.exists() and not overwrite:
         raise FileExistsError(f"{target} exists already; choose another name or overwrite it")
     wb = build_template_workbook()
-    temporary = target.with_name(f".{target.name}.partial")
-    try:
-        wb.save(temporary)
-        os.replace(temporary, target)
-    finally:
-        if temporary.exists():
-            temporary.unlink()
-    return target
+    return write_atomic(target, wb.save)
