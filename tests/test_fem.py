@@ -13,6 +13,7 @@ from scipy.special import jn_zeros
 from auditor.model import CircleCutout, PolygonCutout
 from auditor.physics import fem
 from auditor.physics.basis import ModalBasis, PolygonRegion
+from auditor.physics.cache import SolveCache
 from auditor.physics.geometry import signed_area
 
 SQUARE = ((0.0, 0.0), (1.0, 0.0), (1.0, 1.0), (0.0, 1.0))
@@ -150,16 +151,17 @@ def test_frequency_limit_selects_modes():
 def test_cache_scales_without_a_new_solve():
     outline = ((0.0, 0.0), (1.2, 0.0), (1.0, 0.7), (0.2, 0.9))
     cuts = (PolygonCutout(((0.4, 0.3), (0.6, 0.3), (0.6, 0.5), (0.4, 0.5))),)
-    first = fem.polygon_membrane_basis(outline, cuts, 200.0, 300.0, 0.25, n_modes=8)
-    solves = fem.eigen_solution_cache_info().misses
+    cache = SolveCache()
+    first = fem.polygon_membrane_basis(outline, cuts, 200.0, 300.0, 0.25, n_modes=8, cache=cache)
+    solves = cache.info()["dirichlet"].misses
     size, offset = 2.5, (4.0, -1.0)
     moved = tuple((size * x + offset[0], size * y + offset[1]) for x, y in outline)
     moved_cuts = (PolygonCutout(tuple((size * x + offset[0], size * y + offset[1]) for x, y in cuts[0].vertices)),)
     tension_scale, density = 3.0, 0.4
     second = fem.polygon_membrane_basis(
-        moved, moved_cuts, 200.0 * tension_scale, 300.0 * tension_scale, density, n_modes=8
-    )
-    assert fem.eigen_solution_cache_info().misses == solves  # no new solve
+        moved, moved_cuts, 200.0 * tension_scale, 300.0 * tension_scale, density, n_modes=8,
+        cache=cache)
+    assert cache.info()["dirichlet"].misses == solves  # no new solve
     # f ∝ √(T/ρs)/L (dimensional analysis of the membrane equation)
     factor = math.sqrt(tension_scale * 0.25 / density) / size
     assert second.frequencies_hz == pytest.approx(first.frequencies_hz * factor, rel=1e-12)
@@ -167,8 +169,24 @@ def test_cache_scales_without_a_new_solve():
     assert second.evaluate(point * size + offset) == pytest.approx(first.evaluate(point), abs=1e-9)
     assert second.region.area == pytest.approx(first.region.area * size**2, rel=1e-9)
     # a different tension ratio is a new solve
-    fem.polygon_membrane_basis(outline, cuts, 200.0, 200.0, 0.25, n_modes=8)
-    assert fem.eigen_solution_cache_info().misses == solves + 1
+    fem.polygon_membrane_basis(outline, cuts, 200.0, 200.0, 0.25, n_modes=8, cache=cache)
+    assert cache.info()["dirichlet"].misses == solves + 1
+    # and without a cache nothing is kept between calls: the same numbers, solved again
+    alone = fem.polygon_membrane_basis(outline, cuts, 200.0, 300.0, 0.25, n_modes=8)
+    assert np.array_equal(alone.frequencies_hz, first.frequencies_hz)
+
+
+def test_same_shape_same_frequencies_whatever_was_solved_before():
+    # History independence (DESIGN.md: "the same input gives the same output whatever ran
+    # before"): a larger request for the same normalised shape, solved first into the same
+    # cache, must not change the answer to a smaller one (it once did, by 3e-5 to 6.5e-4).
+    fresh = fem.polygon_membrane_basis(L_SHAPE, (), 1.0, 1.0, 1.0, n_modes=12)
+    cache = SolveCache()
+    scaled = tuple((3.0 * x, 3.0 * y) for x, y in L_SHAPE)
+    fem.polygon_membrane_basis(scaled, (), 1.0, 1.0, 1.0, n_modes=30, cache=cache)
+    again = fem.polygon_membrane_basis(L_SHAPE, (), 1.0, 1.0, 1.0, n_modes=12, cache=cache)
+    assert np.array_equal(again.frequencies_hz, fresh.frequencies_hz)
+    assert np.array_equal(again.mean, fresh.mean)
 
 
 def test_region_mesh_is_a_quadrature(square):
@@ -230,3 +248,79 @@ def test_neumann_modes_of_the_l_shape():
     # π² twice (cos πx / cos πy on the squares, exact); the first two from memory (M. Dauge,
     # benchmark computations of the Laplacian on the L-shaped domain).
     assert k**2 == pytest.approx([0.0, 1.4756218241, 3.5340313668, math.pi**2, math.pi**2], rel=1e-4)
+
+
+# --------------------------------------------------------------------------------------
+# Through modes_for: history independence and every mode up to the limit
+# --------------------------------------------------------------------------------------
+def _polygon_panel(outline, **fields):
+    from auditor.model import Panel, SourceRef
+
+    defaults = dict(panel="P1", source=SourceRef("test.csv", "", 2), shape="polygon",
+                    outline=tuple(outline), areal_density=0.25, tension_x=1000.0,
+                    tension_y=1000.0, room_side="none", plenum_side="none")
+    return Panel(**{**defaults, **fields})
+
+
+def _frequencies(result) -> np.ndarray:
+    return np.array([mode.frequency_hz for mode in result.modes])
+
+
+def test_a_polygon_gives_the_same_frequencies_after_a_scaled_copy():
+    from auditor.physics.modes import modes_for
+
+    # DESIGN.md: the same input gives the same output whatever ran before. A scaled copy of
+    # the outline, solved first into the same cache, asks for more modes of the same
+    # normalised shape; the panel solved after it must not see that larger solve.
+    panel = _polygon_panel(L_SHAPE)
+    fresh = modes_for(panel, 80.0)
+    cache = SolveCache()
+    scaled = _polygon_panel(tuple((1.5 * x, 1.5 * y) for x, y in L_SHAPE))
+    modes_for(scaled, 80.0, cache=cache)
+    again = modes_for(panel, 80.0, cache=cache)
+    assert len(fresh.modes) > 5
+    assert np.array_equal(_frequencies(again), _frequencies(fresh))
+    assert [m.participation for m in again.modes] == [m.participation for m in fresh.modes]
+    # and a second call without a cache solves again, to the same bits
+    assert np.array_equal(_frequencies(modes_for(panel, 80.0)), _frequencies(fresh))
+
+
+def test_every_mode_of_the_l_shape_weyl_and_dirichlet_bracketing():
+    from auditor.physics.modes import modes_for
+
+    rho, tension, fmax = 0.25, 1000.0, 145.0
+    result = modes_for(_polygon_panel(L_SHAPE, areal_density=rho, tension_x=tension,
+                                      tension_y=tension), fmax)
+    count = len(result.modes)
+    assert result.complete_to_hz == fmax
+    k = 2 * math.pi * fmax * math.sqrt(rho / tension)
+    # Weyl's law with the perimeter term (H. Weyl, Math. Ann. 71, 1912; H. P. Baltes and E. R.
+    # Hilf, Spectra of Finite Systems, 1976), area 3, perimeter 8, and the constant corner
+    # term Σ (π² − θ²)/(24πθ) (five right angles, one of 3π/2; Baltes & Hilf): within 5 %
+    angles = np.array([np.pi / 2] * 5 + [1.5 * np.pi])
+    weyl = 3 * k**2 / (4 * math.pi) - 8 * k / (4 * math.pi) + float(
+        np.sum((np.pi**2 - angles**2) / (24 * np.pi * angles)))
+    assert count == pytest.approx(weyl, rel=0.05) and count > 30
+    # Dirichlet bracketing (Courant & Hilbert, Methods of Mathematical Physics I, 1953,
+    # ch. VI §2): the L holds a 2 × 1 rectangle and a unit square apart, and lies in the
+    # 2 × 2 square, so N(2×1) + N(1×1) ≤ N(L) ≤ N(2×2), each with λ = π²((m/a)² + (n/b)²)
+    m, n = np.meshgrid(np.arange(1, 60), np.arange(1, 60))
+    inner = (np.count_nonzero(np.pi**2 * (m**2 / 4 + n**2) <= k**2)
+             + np.count_nonzero(np.pi**2 * (m**2 + n**2) <= k**2))
+    outer = np.count_nonzero(np.pi**2 * (m**2 + n**2) / 4 <= k**2)
+    assert inner <= count <= outer
+    # the lowest three against the published eigenvalues (Fox, Henrici & Moler 1967)
+    lam = (2 * np.pi * _frequencies(result)[:3]) ** 2 * rho / tension
+    assert lam == pytest.approx([9.6397238440, 15.1972519265, 2 * math.pi**2], rel=1e-3)
+
+
+def test_a_polygon_beyond_the_largest_solve_says_where_its_list_stops(monkeypatch):
+    from auditor.physics import modes
+
+    # Far more modes than one finite-element solve holds (its limit lowered to 32 to keep the
+    # test quick): the list stops at the solve's top, and says so, rather than claim fmax.
+    monkeypatch.setattr(modes, "FEM_MAX_MODES", 32)
+    result = modes.modes_for(_polygon_panel(L_SHAPE), 600.0)
+    assert len(result.modes) == 32
+    assert result.complete_to_hz == pytest.approx(result.modes[-1].frequency_hz, rel=1e-12)
+    assert result.complete_to_hz < 600.0

@@ -525,3 +525,82 @@ def test_sketch_works_for_any_basis_with_a_polygon():
     assert NODAL in "".join(lines)  # the sign change at y = 0.5
     with pytest.raises(IndexError):
         sketch_mode(basis, 3)
+
+
+# --------------------------------------------------------------------------------------------
+# Every mode up to the limit: no count cap, and how far the list is complete
+# --------------------------------------------------------------------------------------------
+
+def _panel(**fields):
+    from auditor.model import Panel, SourceRef
+
+    defaults = dict(panel="P1", source=SourceRef("test.csv", "", 2), areal_density=0.25,
+                    tension_x=1200.0, tension_y=1200.0, room_side="none", plenum_side="none")
+    return Panel(**{**defaults, **fields})
+
+
+def _weyl_count(area, perimeter, wavenumber):
+    # N(k) ≈ A k²/(4π) − P k/(4π) for the Dirichlet Laplacian (H. Weyl, Math. Ann. 71, 1912;
+    # the perimeter term: H. P. Baltes and E. R. Hilf, Spectra of Finite Systems, 1976)
+    return area * wavenumber**2 / (4 * math.pi) - perimeter * wavenumber / (4 * math.pi)
+
+
+def test_every_mode_of_a_large_film_to_500_hz_weyl_and_brute_force():
+    from auditor.physics.modes import modes_for
+
+    width, length, rho, tension, fmax = 4.8, 3.2, 0.25, 1200.0, 500.0
+    result = modes_for(_panel(shape="rectangle", width=width, length=length), fmax)
+    count = sum(m.multiplicity for m in result.modes)
+    # exact: every (m, n) with ½√(T/ρs)·√((m/a)² + (n/b)²) ≤ fmax (Kinsler et al.,
+    # Fundamentals of Acoustics, 4th ed., §4.4), enumerated by brute force
+    m, n = np.meshgrid(np.arange(1, 400), np.arange(1, 400))
+    exact = 0.5 * math.sqrt(tension / rho) * np.hypot(m / width, n / length)
+    assert count == np.count_nonzero(exact <= fmax) > 2000
+    assert sorted(_mn(mode.label) for mode in result.modes) == sorted(
+        zip(m[exact <= fmax].tolist(), n[exact <= fmax].tolist()))
+    k = 2 * math.pi * fmax * math.sqrt(rho / tension)
+    assert count == pytest.approx(_weyl_count(width * length, 2 * (width + length), k), rel=0.02)
+    assert result.complete_to_hz == fmax
+    assert all(a.frequency_hz <= b.frequency_hz for a, b in zip(result.modes, result.modes[1:]))
+
+
+def test_every_mode_of_a_circle_to_500_hz_weyl_and_bessel_zeros():
+    from auditor.physics.modes import modes_for
+
+    radius, rho, tension, fmax = 1.5, 0.25, 1200.0, 500.0
+    result = modes_for(_panel(shape="circle", diameter=2 * radius), fmax)
+    count = sum(m.multiplicity for m in result.modes)
+    # exact: zeros j_mn ≤ 2π a fmax √(ρs/T) of every J_m (scipy.special.jn_zeros), m ≥ 1
+    # twice (cos and sin); Kinsler et al., Fundamentals of Acoustics, 4th ed., §4.5
+    x_max = 2 * math.pi * radius * fmax * math.sqrt(rho / tension)
+    exact = 0
+    for order in range(int(x_max) + 1):
+        below = int(np.count_nonzero(special.jn_zeros(order, int(x_max / 3) + 2) <= x_max))
+        exact += below * (1 if order == 0 else 2)
+    assert count == exact > 1000
+    k = x_max / radius
+    assert count == pytest.approx(_weyl_count(math.pi * radius**2, 2 * math.pi * radius, k),
+                                  rel=0.02)
+    assert result.complete_to_hz == fmax
+
+
+def test_a_tone_35_percent_above_the_twelfth_mode_gets_every_mode_below_it():
+    from auditor.physics.modes import modes_for
+
+    # A large film (4.8 m × 3.2 m, 0.25 kg/m², 1200 N/m, no air) with a tone 35 % above its
+    # twelfth mode: a count cap of 12 would hide the modes between (common practice: every
+    # mode up to the assessment limit is judged).
+    width, length = 4.8, 3.2
+    film = _panel(shape="rectangle", width=width, length=length)
+    frequency, _, _ = rectangular_membrane_frequencies(1200.0, 1200.0, 0.25, width, length,
+                                                       math.inf, max_modes=200)
+    tone = 1.35 * frequency[11]
+    result = modes_for(film, tone)
+    # exact count by the closed form (Kinsler et al., §4.4)
+    assert len(result.modes) == np.count_nonzero(frequency <= tone) > 12
+    assert result.complete_to_hz == tone
+    capped = modes_for(film, tone, max_modes=12)
+    assert len(capped.modes) == 12
+    # with a cap the list is complete only to its last mode
+    assert capped.complete_to_hz == pytest.approx(frequency[11], rel=1e-12)
+    assert capped.complete_to_hz < tone

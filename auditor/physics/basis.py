@@ -19,6 +19,7 @@ Conventions (all bases keep them, so the loading step needs no special cases):
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 from typing import Callable
 
@@ -94,6 +95,21 @@ class PolygonRegion:
 Region = RectangleRegion | CircleRegion | PolygonRegion
 
 
+def complete_below(frequencies: np.ndarray, count: int) -> float:
+    """How far the lowest ``count`` of ascending ``frequencies`` hold every mode  [Hz].
+
+    The highest of the first ``count`` frequencies that lies strictly below the first one left
+    out (a degenerate group cut in two is not complete at its frequency); ``inf`` when none is
+    left out, 0 when nothing listed lies below the first left out.
+    """
+    frequencies = np.asarray(frequencies, float)
+    if count >= len(frequencies):
+        return math.inf
+    kept = frequencies[:count]
+    below = kept[kept < frequencies[count]]
+    return float(below.max()) if len(below) else 0.0
+
+
 @dataclass(frozen=True, eq=False)
 class ModalBasis:
     """In-vacuo modes of one panel, ascending in frequency.
@@ -110,6 +126,12 @@ class ModalBasis:
     nodal_lines : tuple of tuple of (family, count) (n,)
     evaluate : callable (points (N, 2) [m]) -> ndarray (N, n)
         Shape values at points, unit mean square; 0 outside the panel.
+    complete_to_hz : float or None  [Hz]
+        Every in-vacuo mode of the panel at or below this frequency is in the basis (none is
+        missing below it); None means up to the highest frequency held.
+    evaluate_some : callable (points (N, 2) [m], indices (k,)) -> ndarray (N, k), optional
+        The shapes ``indices`` only (cheaper than ``evaluate`` on a large basis); None: taken
+        from ``evaluate``.
     """
 
     region: Region
@@ -119,11 +141,28 @@ class ModalBasis:
     mean: np.ndarray
     nodal_lines: tuple[tuple[tuple[str, int], ...], ...]
     evaluate: Callable[[np.ndarray], np.ndarray] = field(repr=False)
+    complete_to_hz: float | None = None
+    evaluate_some: Callable[[np.ndarray, np.ndarray], np.ndarray] | None = field(
+        default=None, repr=False)
 
     @property
     def participation(self) -> np.ndarray:
         return self.mean**2
 
+    @property
+    def complete_to(self) -> float:
+        """Frequency up to which no in-vacuo mode is missing  [Hz] (0 for an empty basis)."""
+        if self.complete_to_hz is not None:
+            return float(self.complete_to_hz)
+        return float(self.frequencies_hz[-1]) if len(self) else 0.0
+
     def __len__(self) -> int:
         return len(self.frequencies_hz)
+
+    def shapes(self, points: np.ndarray, indices) -> np.ndarray:
+        """Shapes ``indices`` at ``points`` (N, 2) [m] → (N, len(indices)), unit mean square."""
+        indices = np.asarray(indices, dtype=int)
+        if self.evaluate_some is not None:
+            return np.asarray(self.evaluate_some(points, indices), float)
+        return np.asarray(self.evaluate(points), float)[:, indices]
 

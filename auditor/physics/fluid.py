@@ -33,8 +33,9 @@ How the quadrature is done
   reduced exactly to a two-fold integral over the separation (u, v) of the products of the
   one-dimensional cross-correlations of the sine shapes (closed form), whose only singularity
   (1/r at the origin) a Duffy transformation removes; tensor Gauss–Legendre quadrature then
-  converges exponentially. The result, divided by ρ0 Lx³, depends only on the aspect ratio and
-  is cached.
+  converges exponentially. The result, divided by ρ0 Lx³, depends only on the aspect ratio
+  (and the table's size), so a caller's :class:`auditor.physics.cache.SolveCache` keeps it
+  for every tension of the outline.
 - Discs (shapes ``J_m(j r/a) cos mθ``): the wavenumber-domain form, with the Hankel transform
   of each Bessel shape in closed form (Lommel's integral); orders m do not couple.
 - Any other basis (polygons, cut-outs, shapes not recognised): point quadrature on a fine
@@ -60,8 +61,11 @@ frequencies are those of the complex roots, ``√Re(ω²)/2π``.
 Basis and limits
 ----------------
 The in-vacuo basis reaches past the band reported (see :func:`choose_basis_limit`; at least
-``MIN_BASIS`` modes); the loaded fundamental then agrees with a basis ten times larger to
-better than 0.05 %. The baffle is infinite and rigid, cavity walls are rigid and the cavity
+``MIN_BASIS`` modes, at most ``max_basis``); the loaded fundamental then agrees with a basis ten
+times larger to better than 0.05 %. ``LoadedModes.complete_to_hz`` says up to which frequency
+no loaded mode is missing (the basis's reach, less the most its top modes' air can lower a
+mode left out); above it :mod:`auditor.physics.uncoupled` loads each further mode on its own.
+The baffle is infinite and rigid, cavity walls are rigid and the cavity
 air has no absorption, so near a depth resonance of a deep cavity the cavity-controlled roots
 are not reported as panel modes. A porous sheet's flow resistance acts through the total
 impedance of the air on both sides; its vectors are the real part of complex modes.
@@ -105,7 +109,9 @@ from scipy import linalg, special
 from scipy.spatial import Delaunay, cKDTree
 
 from auditor.physics import arguments
-from auditor.physics.basis import CircleRegion, ModalBasis, PolygonRegion, RectangleRegion
+from auditor.physics.basis import (CircleRegion, ModalBasis, PolygonRegion, RectangleRegion,
+                                   complete_below)
+from auditor.physics.cache import SolveCache
 from auditor.physics.materials import structural_loss_factor
 
 __all__ = [
@@ -118,6 +124,7 @@ __all__ = [
     "baffled_air_impedance",
     "cavity_dynamic_mass",
     "choose_basis_limit",
+    "describe_loading",
     "loaded_modes",
     "mass_air_mass_frequency",
 ]
@@ -203,6 +210,13 @@ class LoadedModes:
         The loading model that applied and its assumptions, in words.
     radiation_loss_factor : ndarray (k,)  [-]
         The radiation part of ``loss_factor`` (for reports).
+    complete_to_hz : float  [Hz]
+        No loaded mode at or below this frequency is missing from ``frequencies_hz``: fmax when
+        the basis reached far enough (and ``max_modes`` did not cut the list), else lower.
+        Modes above it may be listed, but the list is not complete there. A mode left out of
+        the basis has an in-vacuo frequency above the basis's reach ``f_b`` and, its own air
+        (and cavity) mass ratio μ being at most that of the basis's top modes, a loaded
+        frequency of at least ``f_b/√(1 + 1.25 μ)`` (a 25 % margin on μ).
     """
 
     frequencies_hz: np.ndarray
@@ -216,6 +230,7 @@ class LoadedModes:
     basis: ModalBasis
     model: str
     radiation_loss_factor: np.ndarray
+    complete_to_hz: float = math.inf
 
     def __len__(self) -> int:
         return len(self.frequencies_hz)
@@ -313,8 +328,12 @@ def _parse_labels(labels: tuple) -> tuple[np.ndarray, np.ndarray] | None:
     return out
 
 
-@lru_cache(maxsize=64)
-def _recognise(basis: ModalBasis):
+def _recognise(basis: ModalBasis, cache: SolveCache):
+    """The quadrature family for a basis (kept in ``cache`` by the basis object)."""
+    return cache.families.get_for((basis,), None, lambda: _recognised_family(basis))
+
+
+def _recognised_family(basis: ModalBasis):
     """The quadrature family for a basis: analytic when its shapes are the known ones."""
     region = basis.region
     parsed = _parse_labels(tuple(basis.labels))
@@ -518,34 +537,6 @@ def _correlation_coefficients(count: int):
     return alpha, beta, delta
 
 
-#: Rectangle tables kept (by aspect ratio), and the memory they may take together [bytes].
-_TABLES: dict[float, np.ndarray] = {}
-_TABLE_BUDGET = 256 * 2**20
-
-
-def _rectangle_table_covering(aspect: float, m_count: int, n_count: int) -> np.ndarray:
-    """:func:`_rectangle_table` for at least ``m_count`` × ``n_count`` half-wave numbers.
-
-    One table per aspect ratio is kept and grown when a basis needs more: the entry for given
-    (m, n, m', n') does not depend on the size of the table, and a larger one is integrated
-    with at least the Gauss order the smaller needs (entries of tables of different sizes
-    agree to about 1e-10 relative). Every tension of one panel outline (the remedy scan)
-    shares its table.
-    """
-    table = _TABLES.pop(aspect, None)
-    if table is not None:
-        _TABLES[aspect] = table  # most recently used last
-    if table is None or table.shape[0] < m_count or table.shape[1] < n_count:
-        if table is not None:
-            m_count, n_count = max(m_count, table.shape[0]), max(n_count, table.shape[1])
-        table = _rectangle_table(aspect, m_count, n_count)
-        _TABLES.pop(aspect, None)
-        while _TABLES and sum(t.nbytes for t in _TABLES.values()) + table.nbytes > _TABLE_BUDGET:
-            _TABLES.pop(next(iter(_TABLES)))
-        _TABLES[aspect] = table
-    return table
-
-
 def _rectangle_table(aspect: float, m_count: int, n_count: int) -> np.ndarray:
     """Normalised added mass of the unit-width rectangle, T[m−1, n−1, m'−1, n'−1].
 
@@ -553,30 +544,7 @@ def _rectangle_table(aspect: float, m_count: int, n_count: int) -> np.ndarray:
     ``T = (4α²/2π) ∫₀¹∫₀¹ D_mm'(s) D_nn'(t) / √(s² + α²t²) ds dt`` (α = aspect), the 1/r
     singularity at the origin removed by a Duffy transformation of each half of the square.
     """
-    order = int(1.25 * max(m_count, n_count)) + 18
-    nodes, weights = _gauss_unit(order)
-    sigma, tau = np.meshgrid(nodes, nodes, indexing="ij")
-    w2 = np.outer(weights, weights).ravel()
-    sigma, tau = sigma.ravel(), tau.ravel()
-    alpha = aspect
-
-    def functions(count, s):
-        sines, cosines = _harmonics(count, s)
-        return sines, (1.0 - s) * cosines
-
-    # Triangle t ≤ s: s = σ, t = στ, r = σ √(1 + α²τ²), Jacobian σ; triangle s ≤ t likewise.
-    # σ takes only the ``order`` node values: its functions are evaluated there and repeated.
-    on_sigma = {count: tuple(np.repeat(v, order, axis=1) for v in functions(count, nodes))
-                for count in {m_count, n_count}}
-    moments = {}
-    for s, t, w in ((None, sigma * tau, w2 / np.sqrt(1.0 + (alpha * tau) ** 2)),
-                    (sigma * tau, None, w2 / np.sqrt(tau**2 + alpha**2))):
-        fx = on_sigma[m_count] if s is None else functions(m_count, s)
-        fy = on_sigma[n_count] if t is None else functions(n_count, t)
-        for i in range(2):
-            for j in range(2):
-                value = (fx[i] * w) @ fy[j].T
-                moments[i, j] = moments.get((i, j), 0.0) + value
+    moments = _rectangle_moments(aspect, m_count, n_count)
     ax, bx, dx = _correlation_coefficients(m_count)
     ay, by, dy = _correlation_coefficients(n_count)
     # D_x = Σ_i c_i F_i with (c, F, index) = (α, S, m), (β, S, m'), (δ, C, m); D_y likewise.
@@ -596,8 +564,61 @@ def _rectangle_table(aspect: float, m_count: int, n_count: int) -> np.ndarray:
             table += cx[:, :, None, None] * inner[:, None, :, :]
         else:
             table += cx[:, :, None, None] * inner[None, :, :, :]
-    table *= 4.0 * alpha**2 / (2.0 * np.pi)
+    table *= 4.0 * aspect**2 / (2.0 * np.pi)
     return np.ascontiguousarray(table.transpose(0, 2, 1, 3))
+
+
+def _rectangle_self_table(aspect: float, m_count: int, n_count: int) -> np.ndarray:
+    """The diagonal of :func:`_rectangle_table`, S[m−1, n−1] = T[m−1, n−1, m−1, n−1].
+
+    On the diagonal ``D_mm(s) = sin(mπs)/(mπ) + (1 − s) cos(mπs)`` (see
+    :func:`_correlation_coefficients`), so only the four moment matrices are needed: the
+    self term ``M_pp = ρ0 Lx³ S`` of every mode (m, n) up to the counts at the cost of a few
+    matrix products, where the whole table grows as the square of the number of modes.
+    """
+    moments = _rectangle_moments(aspect, m_count, n_count)
+    a = (1.0 / (np.pi * np.arange(1, m_count + 1)), np.ones(m_count))
+    b = (1.0 / (np.pi * np.arange(1, n_count + 1)), np.ones(n_count))
+    diagonal = sum(a[i][:, None] * b[j][None, :] * moments[i, j]
+                   for i in range(2) for j in range(2))
+    return diagonal * (4.0 * aspect**2 / (2.0 * np.pi))
+
+
+def _rectangle_moments(aspect: float, m_count: int, n_count: int) -> dict:
+    """G_ij[m−1, n−1] = ∫₀¹∫₀¹ F_i,m(s) F_j,n(t) / √(s² + α²t²) ds dt with F_0 = sin(kπs),
+    F_1 = (1 − s) cos(kπs) (α = aspect; keys (i, j)), by tensor Gauss–Legendre rules on the
+    two Duffy-transformed halves of the square.
+
+    Half t ≤ s: s = σ, t = στ, r = σ √(1 + α²τ²), the Jacobian σ cancelling the 1/r; half
+    s ≤ t likewise. The function of σ alone is taken out of the sum over τ, so the work is
+    the functions on the σ·τ nodes and two small matrix products.
+    """
+    order = int(1.25 * max(m_count, n_count)) + 18
+    nodes, weights = _gauss_unit(order)
+    product = np.outer(nodes, nodes).ravel()            # σ_a τ_b, a-major
+    alpha = aspect
+
+    def functions(count, s):
+        sines, cosines = _harmonics(count, s)
+        return sines, (1.0 - s) * cosines
+
+    moments = {}
+    # (count on σ, count on στ, weight of τ, whether σ carries the x index)
+    for outer, inner, tau_weight, x_outer in (
+            (m_count, n_count, weights / np.sqrt(1.0 + (alpha * nodes) ** 2), True),
+            (n_count, m_count, weights / np.sqrt(nodes**2 + alpha**2), False)):
+        on_sigma = [f * weights for f in functions(outer, nodes)]            # (count, a)
+        # Σ_b F(σ_a τ_b) w_b for each function: (count, a)
+        summed = [(f.reshape(inner, order, order) @ tau_weight)
+                  for f in functions(inner, product)]
+        for i in range(2):
+            for j in range(2):
+                if x_outer:
+                    value = on_sigma[i] @ summed[j].T
+                else:
+                    value = (on_sigma[j] @ summed[i].T).T
+                moments[i, j] = moments.get((i, j), 0.0) + value
+    return moments
 
 
 @lru_cache(maxsize=64)
@@ -632,10 +653,18 @@ def _rounded_up(count: int) -> int:
     return int(8 * math.ceil(count / 8))
 
 
-def _rectangle_added_mass(family: _Rectangle) -> np.ndarray:
+def _rectangle_added_mass(family: _Rectangle, cache: SolveCache) -> np.ndarray:
+    """∬∬ φp φq / R dA dA' / (2π) for the rectangle basis  [m³].
+
+    The normalised table depends on the aspect ratio (12 significant digits) and on its size
+    (half-wave numbers rounded up to multiples of 8, which also sets its Gauss order): both
+    are the key in ``cache``, so every tension of one outline whose basis needs the same
+    table size shares it, and a table never depends on which panels came before.
+    """
     aspect = float(f"{family.length / family.width:.12g}")
-    table = _rectangle_table_covering(aspect, _rounded_up(int(family.m.max())),
-                                      _rounded_up(int(family.n.max())))
+    m_count, n_count = _rounded_up(int(family.m.max())), _rounded_up(int(family.n.max()))
+    table = cache.rectangle_tables.get((aspect, m_count, n_count),
+                                       lambda: _rectangle_table(aspect, m_count, n_count))
     i, j = family.m - 1, family.n - 1
     block = table[i[:, None], j[:, None], i[None, :], j[None, :]]
     return family.width**3 * block * np.outer(family.sign, family.sign)
@@ -714,37 +743,29 @@ def _disc_added_mass(family: _Disc) -> np.ndarray:
 # Incompressible added mass (public)
 # ============================================================================================
 
-def _kernel_integral(family) -> np.ndarray:
+def _kernel_integral(family, cache: SolveCache) -> np.ndarray:
     """∬∬ φp(x) φq(x') / |x − x'| dA dA'  [m³] for the family's basis."""
     if isinstance(family, _Rectangle):
-        return 2.0 * np.pi * _rectangle_added_mass(family)
+        return 2.0 * np.pi * _rectangle_added_mass(family, cache)
     if isinstance(family, _Disc):
         return _disc_added_mass(family)
     return _points_added_mass_normalised(family)
 
 
-_ADDED_MASS_CACHE: dict = {}
-
-
-def _unit_added_mass(basis: ModalBasis) -> np.ndarray:
-    """Added mass per unit air density on one baffled side, ``M/ρ0``  [m³] (cached)."""
-    family = _recognise(basis)
+def _unit_added_mass(basis: ModalBasis, cache: SolveCache) -> np.ndarray:
+    """Added mass per unit air density on one baffled side, ``M/ρ0``  [m³]."""
+    family = _recognise(basis, cache)
     if isinstance(family, _Points):
         # The added mass depends on the shapes alone: bases that share their ``evaluate`` and
-        # region (one outline at several tensions, see modes._scaled_polygon_basis) share it.
-        key = (id(basis.evaluate), id(basis.region))
-        hit = _ADDED_MASS_CACHE.get(key)
-        if hit is not None and hit[0] is basis.evaluate and hit[1] is basis.region:
-            return hit[2]
-        value = _kernel_integral(family) / (2.0 * np.pi)
-        if len(_ADDED_MASS_CACHE) > 32:
-            _ADDED_MASS_CACHE.clear()
-        _ADDED_MASS_CACHE[key] = (basis.evaluate, basis.region, value)
-        return value
-    return _kernel_integral(family) / (2.0 * np.pi)
+        # region (one outline at several tensions, see modes._scaled_polygon_basis) share it
+        # through the cache, found by those objects.
+        return cache.added_mass.get_for((basis.evaluate, basis.region), len(basis),
+                                        lambda: _kernel_integral(family, cache) / (2.0 * np.pi))
+    return _kernel_integral(family, cache) / (2.0 * np.pi)
 
 
-def baffled_added_mass(basis: ModalBasis, air_density: float = AIR_DENSITY) -> np.ndarray:
+def baffled_added_mass(basis: ModalBasis, air_density: float = AIR_DENSITY, *,
+                       cache: SolveCache | None = None) -> np.ndarray:
     """Incompressible added-mass matrix of the air on one baffled side of a panel.
 
     Parameters
@@ -752,6 +773,8 @@ def baffled_added_mass(basis: ModalBasis, air_density: float = AIR_DENSITY) -> n
     basis : ModalBasis
         In-vacuo modes, unit mean square (∫φ² dA = A).
     air_density : float  [kg/m³]
+    cache : SolveCache, optional
+        Keeps the integrals for later calls (see :mod:`auditor.physics.cache`).
 
     Returns
     -------
@@ -763,7 +786,8 @@ def baffled_added_mass(basis: ModalBasis, air_density: float = AIR_DENSITY) -> n
     Rayleigh, *The Theory of Sound*, vol. II, §278; Fahy & Gardonio, *Sound and Structural
     Vibration*, 2nd ed. (fluid loading); Duffy, SIAM J. Numer. Anal. 19 (1982).
     """
-    return _positive(air_density, "air density", "kg/m³") * _unit_added_mass(basis)
+    cache = SolveCache() if cache is None else cache
+    return _positive(air_density, "air density", "kg/m³") * _unit_added_mass(basis, cache)
 
 
 # ============================================================================================
@@ -963,7 +987,8 @@ def _compressible_terms(kappa, g, incompressible, wavenumber, air_density, speed
 
 def baffled_air_impedance(basis: ModalBasis, frequency_hz: float, *,
                           air_density: float = AIR_DENSITY,
-                          speed_of_sound: float = SPEED_OF_SOUND) -> AirImpedance:
+                          speed_of_sound: float = SPEED_OF_SOUND,
+                          cache: SolveCache | None = None) -> AirImpedance:
     """Full modal impedance matrices of the air on one baffled side at one frequency.
 
     The modal force on the panel per unit modal velocity is ``iω M(ω) + R(ω)`` with
@@ -993,8 +1018,9 @@ def baffled_air_impedance(basis: ModalBasis, frequency_hz: float, *,
     rho = _positive(air_density, "air density", "kg/m³")
     c = _positive(speed_of_sound, "speed of sound", "m/s")
     f = _non_negative(frequency_hz, "frequency", "Hz")
-    family = _recognise(basis)
-    mass0 = rho * _unit_added_mass(basis)
+    cache = SolveCache() if cache is None else cache
+    family = _recognise(basis, cache)
+    mass0 = rho * _unit_added_mass(basis, cache)
     n = len(basis)
     k = 2.0 * np.pi * f / c
     if k == 0.0 or n == 0:
@@ -1093,7 +1119,7 @@ def _disc_cavity(family: _Disc, depth: float) -> _Cavity:
     return _Cavity(np.concatenate(wavenumbers), np.hstack(columns), depth)
 
 
-def _points_cavity(family: _Points, depth: float) -> _Cavity:
+def _points_cavity(family: _Points, depth: float, cache: SolveCache) -> _Cavity:
     region = family.region
     n = family.values.shape[1]
     count = min(400, max(40, 2 * n + 20))
@@ -1119,19 +1145,19 @@ def _points_cavity(family: _Points, depth: float) -> _Cavity:
     else:
         from auditor.physics import fem  # the finite-element path owns polygon cavities
 
-        wavenumbers, evaluate = fem.neumann_modes(region, count)
+        wavenumbers, evaluate = fem.neumann_modes(region, count, cache=cache)
         shapes = np.asarray(evaluate(x), float).reshape(len(x), -1)
     norm = np.sqrt(np.maximum((shapes**2 * w[:, None]).sum(axis=0), 1e-300))
     coupling = (family.values * w[:, None]).T @ shapes / norm[None, :]
     return _Cavity(np.asarray(wavenumbers, float), coupling, depth)
 
 
-def _cavity_for(family, depth: float) -> _Cavity:
+def _cavity_for(family, depth: float, cache: SolveCache) -> _Cavity:
     if isinstance(family, _Rectangle):
         return _rectangle_cavity(family, depth)
     if isinstance(family, _Disc):
         return _disc_cavity(family, depth)
-    return _points_cavity(family, depth)
+    return _points_cavity(family, depth, cache)
 
 
 def _cavity_split(cavity: _Cavity, wavenumber: float, air_density: float, speed_of_sound: float):
@@ -1173,7 +1199,8 @@ def _cavity_split(cavity: _Cavity, wavenumber: float, air_density: float, speed_
 
 def cavity_dynamic_mass(basis: ModalBasis, depth: float, frequency_hz: float, *,
                         air_density: float = AIR_DENSITY,
-                        speed_of_sound: float = SPEED_OF_SOUND) -> tuple[np.ndarray, np.ndarray]:
+                        speed_of_sound: float = SPEED_OF_SOUND,
+                        cache: SolveCache | None = None) -> tuple[np.ndarray, np.ndarray]:
     """Stiffness and mass the air in a sealed rigid-walled cavity adds, in the modal basis.
 
     The cavity has the panel's outline as its cross-section and depth d. With its
@@ -1206,7 +1233,8 @@ def cavity_dynamic_mass(basis: ModalBasis, depth: float, frequency_hz: float, *,
     rho = _positive(air_density, "air density", "kg/m³")
     c = _positive(speed_of_sound, "speed of sound", "m/s")
     f = _non_negative(frequency_hz, "frequency", "Hz")
-    cavity = _cavity_for(_recognise(basis), d)
+    cache = SolveCache() if cache is None else cache
+    cavity = _cavity_for(_recognise(basis, cache), d, cache)
     s, mu = _cavity_split(cavity, 2 * np.pi * f / c, rho, c)
     L = cavity.coupling
     return (L * s) @ L.T, (L * mu) @ L.T
@@ -1294,6 +1322,14 @@ def choose_basis_limit(probe: ModalBasis, fmax: float, max_modes: int, areal_den
 # The loaded-mode solver
 # ============================================================================================
 
+def describe_loading(room_side: str, plenum_side: str, cavity_depth: float | None,
+                     airflow_resistance: float | None, material: str) -> str:
+    """The loading model :func:`loaded_modes` applies to a panel, in words."""
+    open_mesh = material == "mesh" and airflow_resistance is None
+    depth = cavity_depth if plenum_side == "sealed" else None
+    return _describe(room_side, plenum_side, depth, airflow_resistance, material, open_mesh)
+
+
 def _describe(room_side, plenum_side, depth, resistance, material, open_mesh):
     if open_mesh:
         return ("Open mesh with no airflow resistance given: air passes freely, so no air mass "
@@ -1372,12 +1408,13 @@ def _kappa_grid(family, top_wavenumber: float) -> np.ndarray:
     return _radial_nodes(length, max(_GRID_REACH * top_wavenumber, 12.0 / length))
 
 
-def _frequency_independent_solution(system: _System, blocks, f_keep: float | None = None):
+def _frequency_independent_solution(system: _System, blocks, cache: SolveCache,
+                                    f_keep: float | None = None):
     """Eigenpairs of the panel with incompressible air and the cavity's low-frequency limit,
     block by block, ascending in eigenvalue (only those up to ``f_keep`` [Hz] when given)."""
     values, vectors = [], []
     n = system.stiffness.shape[0]
-    for block, (w, v) in zip(blocks, _block_eigenpairs(system, blocks)):
+    for block, (w, v) in zip(blocks, _block_eigenpairs(system, blocks, cache)):
         if f_keep is not None:
             kept = w <= (2 * np.pi * f_keep) ** 2
             w, v = w[kept], v[:, kept]
@@ -1391,26 +1428,39 @@ def _frequency_independent_solution(system: _System, blocks, f_keep: float | Non
     return values[order], vectors[:, order]
 
 
-#: Recent open-sided eigenproblems and their solutions (newest last), for exact reuse: the
-#: same panel at another tension (the remedy scan) has the same mass matrix and a stiffness
-#: scaled by s, so the same eigenvectors and eigenvalues scaled by s.
-_SOLVED: list[tuple[np.ndarray, np.ndarray, list[np.ndarray], list[tuple]]] = []
-_SOLVED_KEPT = 8
+#: Significant digits kept of the open-sided stiffness (relative to its first entry) before
+#: the eigen-solve: the same panel at another tension (the remedy scan) then has the same
+#: normalised problem, whose solution it reuses exactly (eigenvalues scaled, same vectors).
+_STIFFNESS_DIGITS = 12
 
 
-def _block_eigenpairs(system: _System, blocks) -> list[tuple[np.ndarray, np.ndarray]]:
-    """All eigenpairs (λ [rad²/s²], vectors) of ``K q = λ M q`` in each block."""
+def _significant(values: np.ndarray, digits: int) -> np.ndarray:
+    """Positive ``values`` rounded to ``digits`` significant decimal digits."""
+    unit = 10.0 ** (np.floor(np.log10(values)) - (digits - 1))
+    return np.round(values / unit) * unit
+
+
+def _block_eigenpairs(system: _System, blocks, cache: SolveCache) -> list[tuple[np.ndarray, np.ndarray]]:
+    """All eigenpairs (λ [rad²/s²], vectors) of ``K q = λ M q`` in each block.
+
+    With open sides only, K is diagonal (the in-vacuo modal stiffness): the problem is solved
+    as ``(K/K₀₀) q = (λ/K₀₀) M q`` with K/K₀₀ rounded to ``_STIFFNESS_DIGITS`` digits (a change
+    of 1e-12 in λ at most), kept in ``cache`` by that normalised problem, so every tension of
+    one panel shares the solve and a hit equals a fresh solve bit for bit.
+    """
     diagonal = np.diag(system.stiffness)   # the in-vacuo modal stiffness is diagonal
-    reusable = system.cavity is None and np.all(diagonal > 0)
-    if reusable:
-        for k0, m0, blocks0, pairs in reversed(_SOLVED):
-            if (k0.shape == diagonal.shape and len(blocks0) == len(blocks)
-                    and all(np.array_equal(a, b) for a, b in zip(blocks0, blocks))
-                    and np.array_equal(m0, system.mass)):
-                ratio = diagonal / k0
-                scale = float(ratio[0])
-                if np.all(np.abs(ratio - scale) <= 1e-13 * scale):
-                    return [(w * scale, v) for w, v in pairs]
+    if system.cavity is None and len(diagonal) and np.all(diagonal > 0):
+        first = float(diagonal[0])
+        normalised = _significant(diagonal / first, _STIFFNESS_DIGITS)
+        key = (normalised.tobytes(), system.mass.tobytes(),
+               tuple(np.asarray(b).tobytes() for b in blocks))
+
+        def solve():
+            return [linalg.eigh(np.diag(normalised[block]), system.mass[np.ix_(block, block)],
+                                driver="gvd", check_finite=False) for block in blocks]
+
+        pairs = cache.eigenpairs.get(key, solve)
+        return [(w * first, v) for w, v in pairs]
     pairs = []
     for block in blocks:
         k_b = system.stiffness[np.ix_(block, block)]
@@ -1421,10 +1471,6 @@ def _block_eigenpairs(system: _System, blocks) -> list[tuple[np.ndarray, np.ndar
         # The divide-and-conquer driver on the whole block is faster here than the subset
         # driver on part of it (blocks of tens of modes).
         pairs.append(linalg.eigh(k_b, m_b, driver="gvd", check_finite=False))
-    if reusable:
-        _SOLVED.append((diagonal.copy(), system.mass.copy(), [np.array(b) for b in blocks],
-                        pairs))
-        del _SOLVED[:-_SOLVED_KEPT]
     return pairs
 
 
@@ -1486,13 +1532,16 @@ def _porous_operator(system: _System, block, frequency: float):
     velocity. Eliminating u gives the series impedance ``Z r/(Z + r)``.
     """
     size = len(block)
-    eye, zero = np.eye(size), np.zeros((size, size))
-    k_s = system.stiffness[np.ix_(block, block)] * (1 + 1j * system.eta_structure)
+    panel, air_part = slice(0, size), slice(size, 2 * size)
     k_cav, m_cav = system.cavity_matrices(frequency, block)
-    air = system.air_mass[np.ix_(block, block)] + m_cav
-    stiffness = np.block([[k_s, zero], [zero, k_cav]])
-    mass = np.block([[system.structural_mass * eye, zero], [zero, air]])
-    damping = system.resistance * np.block([[eye, -eye], [-eye, eye]])
+    stiffness = np.zeros((2 * size, 2 * size), dtype=complex)
+    stiffness[panel, panel] = system.stiffness[np.ix_(block, block)] * (1 + 1j * system.eta_structure)
+    stiffness[air_part, air_part] = k_cav
+    mass = np.zeros((2 * size, 2 * size))
+    mass[panel, panel] = system.structural_mass * np.eye(size)
+    mass[air_part, air_part] = system.air_mass[np.ix_(block, block)] + m_cav
+    eye = system.resistance * np.eye(size)
+    damping = np.block([[eye, -eye], [-eye, eye]])
     return stiffness, mass, damping
 
 
@@ -1501,45 +1550,103 @@ def _porous_roots(system: _System, block, frequency: float):
     ``frequency`` (companion linearisation), and their vectors z = (q, u)."""
     stiffness, mass, damping = _porous_operator(system, block, frequency)
     size = stiffness.shape[0]
-    eye, zero = np.eye(size), np.zeros((size, size))
-    # (s² M + s C + K) z = 0 with s = iω:  [[0, I], [−K, −C]] w = s [[I, 0], [0, M]] w.
-    left = np.block([[zero, eye], [-stiffness, -damping]])
-    right = np.block([[eye, zero], [zero, mass]])
+    half = size // 2
+    # (s² M + s C + K) z = 0 with s = iω: [[0, I], [−M⁻¹K, −M⁻¹C]] w = s w. M is block
+    # diagonal (the panel's ρs A I and the air's positive definite mass), so M⁻¹ costs two
+    # small factorisations and the standard eigenproblem replaces the generalised one of
+    # twice its size's pencil (about three times faster).
+    inverse = np.zeros((size, size))
+    inverse[:half, :half] = np.eye(half) / system.structural_mass
+    inverse[half:, half:] = linalg.cho_solve(linalg.cho_factor(mass[half:, half:].real),
+                                             np.eye(half))
+    operator = np.zeros((2 * size, 2 * size), dtype=complex)
+    operator[:size, size:] = np.eye(size)
+    operator[size:, :size] = -inverse @ stiffness
+    operator[size:, size:] = -inverse @ damping
     with np.errstate(all="ignore"):
-        s, w = linalg.eig(left, right, check_finite=False)
+        s, w = linalg.eig(operator, check_finite=False)
     finite = np.isfinite(s)
     return -1j * s[finite], w[:size, finite]
 
 
-def _refine_porous(system: _System, block, z: np.ndarray, omega: complex,
-                   iterations: int = 6) -> tuple[np.ndarray, complex]:
-    """Follow one root as the cavity's matrices change with frequency: nonlinear inverse
+def _porous_operators(system: _System, block, frequencies: np.ndarray):
+    """:func:`_porous_operator` at many frequencies [Hz]: stacked (k, 2n, 2n) stiffness and
+    mass, and the (frequency-independent) damping."""
+    size = len(block)
+    count = len(frequencies)
+    panel, air_part = slice(0, size), slice(size, 2 * size)
+    stiffness = np.zeros((count, 2 * size, 2 * size), dtype=complex)
+    stiffness[:, panel, panel] = (system.stiffness[np.ix_(block, block)]
+                                  * (1 + 1j * system.eta_structure))
+    mass = np.zeros((count, 2 * size, 2 * size))
+    mass[:, panel, panel] = system.structural_mass * np.eye(size)
+    mass[:, air_part, air_part] = system.air_mass[np.ix_(block, block)]
+    if system.cavity is not None:
+        cavity = system._cavity_of(block)
+        split = [_cavity_split(cavity, 2 * np.pi * f / system.speed_of_sound,
+                               system.air_density, system.speed_of_sound) for f in frequencies]
+        coupling = cavity.coupling
+        springs = np.array([pair[0] for pair in split])
+        masses = np.array([pair[1] for pair in split])
+        stiffness[:, air_part, air_part] += (coupling[None] * springs[:, None, :]) @ coupling.T
+        mass[:, air_part, air_part] += (coupling[None] * masses[:, None, :]) @ coupling.T
+    eye = system.resistance * np.eye(size)
+    damping = np.block([[eye, -eye], [-eye, eye]])
+    return stiffness, mass, damping
+
+
+def _refine_porous(system: _System, block, vectors: np.ndarray, roots: np.ndarray,
+                   iterations: int = 6) -> tuple[np.ndarray, np.ndarray]:
+    """Follow roots as the cavity's matrices change with frequency: nonlinear inverse
     iteration z ← T(ω)⁻¹ T'(ω) z, ω the root of the scalar quadratic zᵀT(ω)z = 0 nearest
-    the last (the Rayleigh functional). The root found at zero frequency is kept when the
-    iteration does not settle within 25 % of it."""
-    start_z, start = z, omega
+    the last (the Rayleigh functional). A root found at zero frequency is kept when its
+    iteration does not settle within 25 % of it.
+
+    All roots of one block at once (``vectors`` (2n, k), ``roots`` (k,)): each iteration
+    builds the operators at every root's frequency and solves them as one stack.
+    """
+    z, omega = vectors.astype(complex), roots.astype(complex)
+    start_z, start = z.copy(), omega.copy()
+    active = np.arange(len(omega))
     for _ in range(iterations):
-        stiffness, mass, damping = _porous_operator(system, block, max(omega.real, 0.0) / (2 * np.pi))
-        operator = stiffness - omega**2 * mass + 1j * omega * damping
+        if len(active) == 0:
+            break
+        w = omega[active]
+        stiffness, mass, damping = _porous_operators(
+            system, block, np.maximum(w.real, 0.0) / (2 * np.pi))
+        operator = stiffness - (w**2)[:, None, None] * mass + 1j * w[:, None, None] * damping
+        x = z[:, active].T                                            # (k, 2n)
+        rhs = (-2.0 * w[:, None, None] * mass + 1j * damping) @ x[:, :, None]
         with np.errstate(all="ignore"), warnings.catch_warnings():
-            # Near convergence the operator is singular by design (inverse iteration).
+            # Near convergence the operators are singular by design (inverse iteration).
             warnings.simplefilter("ignore", linalg.LinAlgWarning)
             try:
-                y = linalg.solve(operator, (-2.0 * omega * mass + 1j * damping) @ z,
-                                 check_finite=False)
-            except (linalg.LinAlgError, ValueError):
-                break
-        if not np.all(np.isfinite(y)) or np.linalg.norm(y) == 0:
-            break
-        z = y / np.linalg.norm(y)
-        roots = np.roots([-(z @ mass @ z), 1j * (z @ damping @ z), z @ stiffness @ z])
-        new = complex(roots[np.argmin(np.abs(roots - omega))])
-        done = abs(new - omega) <= 1e-10 * abs(new)
-        omega = new
-        if done:
-            break
-    if not (omega.real > 0 and abs(omega - start) <= 0.25 * abs(start)):
-        return start_z, start
+                y = np.linalg.solve(operator, rhs)[:, :, 0]
+            except np.linalg.LinAlgError:
+                y = np.full(x.shape, np.nan, dtype=complex)
+                for j in range(len(active)):
+                    try:
+                        y[j] = linalg.solve(operator[j], rhs[j, :, 0], check_finite=False)
+                    except (linalg.LinAlgError, ValueError):
+                        pass
+        norm = np.linalg.norm(y, axis=1)
+        moving = np.all(np.isfinite(y), axis=1) & (norm > 0)
+        y = y[moving] / norm[moving, None]
+        # the quadratic −(zᵀMz) ω² + i(zᵀCz) ω + zᵀKz = 0, the root nearest the last
+        a = -np.sum(y * (mass[moving] @ y[:, :, None])[:, :, 0], axis=1)
+        b = 1j * np.sum(y * (y @ damping.T), axis=1)
+        c = np.sum(y * (stiffness[moving] @ y[:, :, None])[:, :, 0], axis=1)
+        root = np.sqrt(b * b - 4 * a * c)
+        first, second = (-b + root) / (2 * a), (-b - root) / (2 * a)
+        previous = w[moving]
+        new = np.where(np.abs(first - previous) <= np.abs(second - previous), first, second)
+        index = active[moving]
+        z[:, index] = y.T
+        omega[index] = new
+        done = np.abs(new - previous) <= 1e-10 * np.abs(new)
+        active = index[~done]
+    settled = (omega.real > 0) & (np.abs(omega - start) <= 0.25 * np.abs(start))
+    z[:, ~settled], omega[~settled] = start_z[:, ~settled], start[~settled]
     return z, omega
 
 
@@ -1555,6 +1662,7 @@ def _porous_modes(system: _System, blocks, f_reach: float, count: int) -> list[_
     """
     n = system.stiffness.shape[0]
     followed = []
+    found = []        # (ω at zero frequency, block, z) of every panel root in reach
     for block in blocks:
         size = len(block)
         omega, z = _porous_roots(system, block, 0.0)
@@ -1564,9 +1672,22 @@ def _porous_modes(system: _System, blocks, f_reach: float, count: int) -> list[_
         lam = omega**2
         keep = np.flatnonzero((omega.real > 0) & (panel > other) & (lam.real > 0)
                               & (omega.real <= 2 * np.pi * f_reach * 1.05))
-        for index in keep[np.argsort(omega.real[keep])][:count]:
-            vector, root = z[:, index] / np.linalg.norm(z[:, index]), complex(omega[index])
-            vector, root = _refine_porous(system, block, vector, root)
+        found += [(complex(omega[i]), block, z[:, i]) for i in keep]
+    # the lowest ``count`` over all blocks (the caller's count has its own margin)
+    found.sort(key=lambda item: item[0].real)
+    found = found[:count]
+    refined = {}
+    for number, block in enumerate(blocks):
+        mine = [j for j, item in enumerate(found) if item[1] is block]
+        if mine:
+            vectors = np.column_stack([found[j][2] / np.linalg.norm(found[j][2]) for j in mine])
+            vectors, roots = _refine_porous(system, block, vectors,
+                                            np.array([found[j][0] for j in mine]))
+            refined.update({j: (vectors[:, i], complex(roots[i])) for i, j in enumerate(mine)})
+    for j, (_, block, _) in enumerate(found):
+        size = len(block)
+        vector, root = refined[j]
+        if True:
             # Unit panel norm, dominant panel coordinate real and positive.
             dominant = vector[np.argmax(np.abs(vector[:size]))]
             vector = vector * (abs(dominant) / dominant) / np.linalg.norm(vector[:size])
@@ -1709,7 +1830,7 @@ def loaded_modes(
     areal_density: float,
     *,
     fmax: float,
-    max_modes: int = 60,
+    max_modes: int | None = 60,
     room_side: str = "air",
     plenum_side: str = "air",
     cavity_depth: float | None = None,
@@ -1720,6 +1841,7 @@ def loaded_modes(
     speed_of_sound: float = SPEED_OF_SOUND,
     basis_extent: float = 1.0,
     max_basis: int = 200,
+    cache: SolveCache | None = None,
 ) -> LoadedModes:
     """Natural modes of a panel with its air: baffled half-spaces, a sealed cavity, porosity.
 
@@ -1736,8 +1858,8 @@ def loaded_modes(
     areal_density : float  [kg/m²]
     fmax : float  [Hz]
         Highest frequency reported.
-    max_modes : int
-        Report at most this many (the lowest).
+    max_modes : int or None
+        Report at most this many (the lowest); None: every mode up to ``fmax``.
     room_side : {"air", "none"}
     plenum_side : {"air", "sealed", "none"}
     cavity_depth : float or None  [m]
@@ -1752,6 +1874,9 @@ def loaded_modes(
     speed_of_sound : float  [m/s]
     basis_extent, max_basis :
         Reach and cap of the in-vacuo basis (see :func:`choose_basis_limit`).
+    cache : SolveCache, optional
+        Keeps the air's integrals and eigen-solutions for later calls (see
+        :mod:`auditor.physics.cache`); the result does not depend on what it holds.
 
     Returns
     -------
@@ -1798,15 +1923,18 @@ def loaded_modes(
     open_mesh = material == "mesh" and airflow_resistance is None
     air_sides = (room_side == "air") + (plenum_side == "air")
     loaded_sides = 0 if open_mesh else air_sides + (plenum_side == "sealed")
-    if max_modes is None or max_modes < 0:
-        raise LoadingInputError(f"max_modes must be a whole number ≥ 0, got {max_modes!r}")
-    max_modes = int(max_modes)
+    if max_modes is not None:
+        if isinstance(max_modes, bool) or int(max_modes) != max_modes or max_modes < 0:
+            raise LoadingInputError(f"max_modes must be a whole number ≥ 0 or None, got {max_modes!r}")
+        max_modes = int(max_modes)
+    # candidates followed beyond the count reported (None: every candidate)
+    spare = None if max_modes is None else max_modes + max_modes // 2 + 8
 
     probe = basis_for(limit)
     if loaded_sides == 0:
         basis = probe
     else:
-        f_limit = choose_basis_limit(probe, limit, max_modes, rho_s, loaded_sides,
+        f_limit = choose_basis_limit(probe, limit, max_modes or 0, rho_s, loaded_sides,
                                      air_density=rho, extent=basis_extent, max_basis=max_basis)
         basis = basis_for(f_limit) if f_limit > limit * (1 + 1e-12) else probe
         # A few modes are never enough for the coupling through the air: reach at least
@@ -1816,20 +1944,26 @@ def loaded_modes(
                 break
             f_limit *= 1.15 * math.sqrt(MIN_BASIS / max(len(basis), 1))
             basis = basis_for(f_limit)
+    cache = SolveCache() if cache is None else cache
     if len(basis) > max_basis and loaded_sides:
-        basis = _truncated(basis, max_basis)
+        basis = _truncated(basis, max_basis, cache)
     model = _describe(room_side, plenum_side, depth, resistance, material, open_mesh)
     n = len(basis)
     omega_vac = 2 * np.pi * np.asarray(basis.frequencies_hz, float)
     if loaded_sides == 0 or n == 0:
-        keep = np.flatnonzero(np.asarray(basis.frequencies_hz) <= limit)[:max_modes]
-        return _assemble(basis, np.asarray(basis.frequencies_hz)[keep], np.full(len(keep), eta),
-                         np.zeros(len(keep)), np.eye(n)[:, keep], model)
+        vacuum = np.asarray(basis.frequencies_hz)
+        below = np.flatnonzero(vacuum <= limit)
+        keep = below[:max_modes]
+        complete = min(limit, basis.complete_to, complete_below(vacuum[below], len(keep)))
+        vectors = np.zeros((n, len(keep)))
+        vectors[keep, np.arange(len(keep))] = 1.0
+        return _assemble(basis, vacuum[keep], np.full(len(keep), eta), np.zeros(len(keep)),
+                         vectors, model, complete)
 
-    family = _recognise(basis)
+    family = _recognise(basis, cache)
     area = family.area
     structural = rho_s * area
-    air_mass = rho * air_sides * _unit_added_mass(basis)
+    air_mass = rho * air_sides * _unit_added_mass(basis, cache)
     system = _System(
         family=family,
         stiffness=np.diag(structural * omega_vac**2),
@@ -1837,7 +1971,7 @@ def loaded_modes(
         structural_mass=structural,
         air_mass=air_mass,
         air_sides=air_sides,
-        cavity=_cavity_for(family, depth) if depth is not None else None,
+        cavity=_cavity_for(family, depth, cache) if depth is not None else None,
         resistance=None if resistance is None else resistance * area,
         air_density=rho,
         speed_of_sound=c,
@@ -1846,11 +1980,12 @@ def loaded_modes(
     blocks = family.blocks()
     open_sides_only = system.cavity is None and system.resistance is None
     values, vectors = _frequency_independent_solution(
-        system, blocks, 1.05 * limit if open_sides_only else None)
+        system, blocks, cache, 1.05 * limit if open_sides_only else None)
     frequencies = np.sqrt(np.maximum(values, 0.0)) / (2 * np.pi)
     if open_sides_only:
         # Nothing depends on frequency but the compressible terms: no re-solve needed.
-        candidates = np.flatnonzero(frequencies <= limit * 1.02)[:max_modes + 8]
+        candidates = np.flatnonzero(frequencies <= limit * 1.02)[:None if max_modes is None
+                                                                 else max_modes + 8]
         x = vectors[:, candidates]
         stiffness = structural * (omega_vac**2 @ (x * x)) * (1 + 1j * eta)
         mass = np.sum(x * (system.mass @ x), axis=0)
@@ -1862,10 +1997,10 @@ def loaded_modes(
         # the cavity's stiffness and mass-like terms both lower frequencies as they rise, and
         # a porous sheet raises them at most to the in-vacuo value.
         if system.resistance is not None and system.cavity is not None:
-            followed = _porous_modes(system, blocks, limit, max_modes + max_modes // 2 + 8)
+            followed = _porous_modes(system, blocks, limit, spare)
         else:
             reach = 1.0 if system.resistance is not None else 1.5
-            candidates = np.flatnonzero(frequencies <= reach * limit)[:max_modes + max_modes // 2 + 8]
+            candidates = np.flatnonzero(frequencies <= reach * limit)[:spare]
             followed = [_follow_mode(system, blocks, vectors[:, index], float(frequencies[index]))
                         for index in candidates]
     f, eta_total, eta_rad = _compressible_correction(system, followed)
@@ -1874,21 +2009,60 @@ def loaded_modes(
     else:
         unique = _distinct(f, [item.vector for item in followed])
     order = unique[np.argsort(f[unique], kind="stable")]
-    order = order[f[order] <= limit][:max_modes]
+    order = order[f[order] <= limit]
+    complete = min(limit, _coupled_reach(system, basis), complete_below(f[order], len(order[:max_modes])))
+    order = order[:max_modes]
     q = np.column_stack([followed[i].vector for i in order]) if len(order) else np.zeros((n, 0))
     q = np.real(_normalise(q))
     norms = np.sqrt(np.sum(q * q, axis=0))
     q = q / np.where(norms > 0, norms, 1.0)
-    return _assemble(basis, f[order], eta_total[order], eta_rad[order], q, model)
+    return _assemble(basis, f[order], eta_total[order], eta_rad[order], q, model, complete)
 
 
-def _truncated(basis: ModalBasis, count: int) -> ModalBasis:
-    keep = np.argsort(np.asarray(basis.frequencies_hz), kind="stable")[:count]
+#: Margin on the air (and cavity) mass ratio of the modes left out of a coupled basis.
+REACH_MASS_MARGIN = 1.25
+
+
+def _coupled_reach(system: _System, basis: ModalBasis) -> float:
+    """Lowest loaded frequency a mode left out of the basis can have  [Hz].
+
+    Its in-vacuo frequency exceeds the basis's reach and its own air and cavity mass ratio is
+    at most that of the top tenth of the basis (added mass per unit area falls as the
+    wavenumber rises, about ρ0/k a side), taken with the margin ``REACH_MASS_MARGIN``.
+    """
+    reach = basis.complete_to
+    n = len(basis)
+    top = np.arange(max(0, n - max(1, n // 10)), n)
+    added = np.diag(system.air_mass)[top]
+    if system.cavity is not None:
+        added = added + np.diag(system.cavity_matrices(0.0, top)[1])
+    ratio = float(np.max(added)) / system.structural_mass
+    return reach / math.sqrt(1.0 + REACH_MASS_MARGIN * ratio)
+
+
+def _truncated(basis: ModalBasis, count: int, cache: SolveCache) -> ModalBasis:
+    """The lowest ``count`` modes of a basis (the first ``count``: bases are ascending).
+
+    The shapes of the truncated basis are kept in ``cache`` by the basis's shape objects, so
+    that the same panel at another tension (same shapes, frequencies scaled) gets the same
+    shape objects again, and with them its air matrices.
+    """
+    frequencies = np.asarray(basis.frequencies_hz)
+    keep = np.argsort(frequencies, kind="stable")[:count]
     keep.sort()
-    evaluate = basis.evaluate
+    complete = min(basis.complete_to, complete_below(np.sort(frequencies), count))
 
-    def evaluate_kept(points, _keep=keep, _evaluate=evaluate):
-        return np.asarray(_evaluate(points))[:, _keep]
+    def shapes():
+        def evaluate_kept(points, _keep=keep, _basis=basis):
+            return _basis.shapes(points, _keep)
+
+        def evaluate_some(points, indices, _keep=keep, _basis=basis):
+            return _basis.shapes(points, _keep[np.asarray(indices, dtype=int)])
+
+        return evaluate_kept, evaluate_some
+
+    evaluate_kept, evaluate_some = cache.families.get_for(
+        (basis.evaluate, basis.region), ("truncated", keep.tobytes()), shapes)
 
     return ModalBasis(
         region=basis.region,
@@ -1898,10 +2072,13 @@ def _truncated(basis: ModalBasis, count: int) -> ModalBasis:
         mean=np.asarray(basis.mean)[keep],
         nodal_lines=tuple(basis.nodal_lines[i] for i in keep),
         evaluate=evaluate_kept,
+        complete_to_hz=complete,
+        evaluate_some=evaluate_some,
     )
 
 
-def _assemble(basis: ModalBasis, frequencies, eta_total, eta_rad, vectors, model) -> LoadedModes:
+def _assemble(basis: ModalBasis, frequencies, eta_total, eta_rad, vectors, model,
+              complete: float = math.inf) -> LoadedModes:
     vectors = np.asarray(vectors, float)
     vectors = vectors.reshape(len(basis), -1) if vectors.size else np.zeros((len(basis), 0))
     dominant = np.argmax(np.abs(vectors), axis=0) if vectors.shape[1] else np.zeros(0, int)
@@ -1920,4 +2097,5 @@ def _assemble(basis: ModalBasis, frequencies, eta_total, eta_rad, vectors, model
         basis=basis,
         model=model,
         radiation_loss_factor=np.asarray(eta_rad, float),
+        complete_to_hz=float(complete),
     )

@@ -48,7 +48,7 @@ from scipy import special
 
 from auditor.physics.arguments import non_negative as _non_negative
 from auditor.physics.arguments import positive as _positive
-from auditor.physics.basis import CircleRegion, ModalBasis, RectangleRegion
+from auditor.physics.basis import CircleRegion, ModalBasis, RectangleRegion, complete_below
 
 __all__ = [
     "RectangularSpectra",
@@ -426,6 +426,14 @@ def _rectangle_shapes(points, width, length, m, n, distinct_m, m_slot, distinct_
     return values
 
 
+def _rectangle_some_shapes(points, indices, width, length, m, n):
+    """Shapes ``indices`` of the basis only, at ``points`` (N, 2); shape (N, len(indices))."""
+    indices = np.asarray(indices, dtype=int)
+    return _rectangle_shapes(points, width, length, m[indices], n[indices],
+                             m[indices].astype(float), np.arange(len(indices)),
+                             n[indices].astype(float), np.arange(len(indices)))
+
+
 def rectangular_membrane_basis(tension_x, tension_y, areal_density, width, length, fmax,
                                bending_stiffness=0.0, max_modes=None) -> ModalBasis:
     """In-vacuo modal basis of a rectangular membrane (or simply supported prestressed plate).
@@ -456,7 +464,12 @@ def rectangular_membrane_basis(tension_x, tension_y, areal_density, width, lengt
     checked = _check_rectangle(tension_x, tension_y, areal_density, width, length,
                                bending_stiffness)
     limit, cap = _frequency_limit(fmax, max_modes)
-    frequency, m, n = _rectangle_spectrum(*checked, limit, cap)
+    # one mode beyond a cap tells whether the cap cut the spectrum short of fmax
+    frequency, m, n = _rectangle_spectrum(*checked, limit, None if cap is None else cap + 1)
+    complete = limit
+    if cap is not None and len(frequency) > cap:
+        complete = min(limit, complete_below(frequency, cap))
+        frequency, m, n = frequency[:cap], m[:cap], n[:cap]
     lx, ly = checked[3], checked[4]
     distinct_m, m_slot = np.unique(m, return_inverse=True)
     distinct_n, n_slot = np.unique(n, return_inverse=True)
@@ -473,6 +486,8 @@ def rectangular_membrane_basis(tension_x, tension_y, areal_density, width, lengt
         nodal_lines=tuple((("parallel to length", a - 1), ("parallel to width", b - 1))
                           for a, b in zip(mi, ni)),
         evaluate=evaluate,
+        complete_to_hz=complete,
+        evaluate_some=partial(_rectangle_some_shapes, width=lx, length=ly, m=m, n=n),
     )
 
 
@@ -732,6 +747,12 @@ def _circle_shapes(points, radius, m, zero, scale):
     return values
 
 
+def _circle_some_shapes(points, indices, radius, m, zero, scale):
+    """Shapes ``indices`` of the basis only, at ``points`` (N, 2); shape (N, len(indices))."""
+    indices = np.asarray(indices, dtype=int)
+    return _circle_shapes(points, radius, m[indices], zero[indices], scale[indices])
+
+
 def circular_membrane_basis(tension, areal_density, radius, fmax, max_modes=None) -> ModalBasis:
     """In-vacuo modal basis of a circular membrane with a fixed edge.
 
@@ -761,7 +782,11 @@ def circular_membrane_basis(tension, areal_density, radius, fmax, max_modes=None
     """
     checked = _check_circle(tension, areal_density, radius)
     limit, cap = _frequency_limit(fmax, max_modes)
-    frequency, m, n, zero = _circle_spectrum(*checked, limit, cap)
+    frequency, m, n, zero = _circle_spectrum(*checked, limit, None if cap is None else cap + 1)
+    complete = limit
+    if cap is not None and len(frequency) > cap:
+        complete = min(limit, complete_below(frequency, cap))
+        frequency, m, n, zero = frequency[:cap], m[:cap], n[:cap], zero[:cap]
     a = checked[2]
     next_order = special.jv(m + 1.0, zero)
     scale = np.where(m == 0, 1.0, math.sqrt(2.0)) / np.abs(next_order)
@@ -776,4 +801,7 @@ def circular_membrane_basis(tension, areal_density, radius, fmax, max_modes=None
         mean=mean,
         nodal_lines=tuple((("diameters", d), ("circles", r - 1)) for d, r in pairs),
         evaluate=evaluate,
+        complete_to_hz=complete,
+        evaluate_some=partial(_circle_some_shapes, radius=a, m=m.astype(float), zero=zero,
+                              scale=scale),
     )

@@ -4,34 +4,47 @@ geometry → in-vacuo ``ModalBasis`` (analytic for rectangles and circles, finit
 any other outline or any panel with cut-outs) → loading (air on either side, a sealed cavity,
 porosity: ``auditor.physics.fluid``) → reported ``Mode`` records.
 
-Results are cached by the panel's physical definition (its id, zone and the way it was typed do
-not matter), so the many panels of one type in a schedule cost one solve.
+A caller that passes one :class:`auditor.physics.cache.SolveCache` to many calls shares solves
+between them, keyed by the panel's physical definition (its id, zone and the way it was typed
+do not matter), so the many panels of one type in a schedule cost one solve; without one, each
+call solves afresh and keeps nothing.
 """
 
 from __future__ import annotations
 
 import dataclasses
-from dataclasses import dataclass
-from functools import lru_cache
+import math
+from dataclasses import dataclass, field
 from typing import Callable
 
 import numpy as np
 
 from auditor.model import CircleCutout, Mode, Panel, ShapeGrid
-from auditor.physics import fem, fluid, membrane
-from auditor.physics.basis import ModalBasis
+from auditor.physics import fem, fluid, membrane, uncoupled
+from auditor.physics.basis import ModalBasis, complete_below
+from auditor.physics.cache import SolveCache
 from auditor.physics.geometry import outline_problems, signed_area
 from auditor.physics.materials import structural_loss_factor
 
-#: Reported modes per panel when the caller sets no cap.
-DEFAULT_MAX_MODES = 60
-
-#: Largest analytic basis built for one panel: the loading step uses at most about 200 basis
-#: modes, and building thousands of labelled modes only to drop them is the slow part.
+#: Largest analytic basis built for the coupled air-loading step: it uses at most about 200
+#: basis modes, and building thousands of labelled modes only to drop them is the slow part.
+#: (In vacuo, and above the coupled basis, the analytic spectra are built without a cap.)
 ANALYTIC_MAX_BASIS = 240
 
-#: Largest finite-element basis requested for one outline.
+#: Largest finite-element basis coupled through the air (the point quadrature of the Rayleigh
+#: integral grows as the square of the mesh it needs).
 FEM_MAX_BASIS = 64
+
+#: Largest finite-element basis solved for one outline, in vacuo or above the coupled basis:
+#: on the coarse mesh of an L-shape, 64 modes take about 0.5 s, 128 about 2 s and 256 about
+#: 10 s (one core, measured), the Lanczos iteration growing faster than the count. Above it a
+#: polygon is not assessed (``PanelModes.complete_to_hz`` says where it stops).
+FEM_MAX_MODES = 128
+
+
+#: Farthest an in-vacuo basis is extended, as a multiple of fmax, for the modes above the
+#: coupled basis (an air mass ratio of 63 at the basis's top: far beyond any panel in air).
+MAX_REACH_FACTOR = 8.0
 
 
 class GeometryError(ValueError):
@@ -45,22 +58,52 @@ class PanelModes:
     Parameters
     ----------
     modes : tuple of Mode
-        Ascending in frequency, f ≤ fmax, at most ``max_modes``.
+        Ascending in frequency, f ≤ fmax, at most ``max_modes`` when a cap was asked for.
     basis : ModalBasis
         The in-vacuo basis the modes are expressed in.
-    vectors : ndarray (n_basis, n_modes)
-        Each reported mode's coordinates in the basis (a column of the identity in vacuo).
+    coordinates : ndarray (n_coupled_basis, n_coupled_modes)
+        Coordinates of the modes solved with the full coupling through the air, in the first
+        ``n_coupled_basis`` modes of ``basis`` (empty in vacuo).
     loading : str
         The loading model that applied, in words, with its assumptions.
     notes : tuple of str
         Anything the user must know about how this panel was modelled.
+    complete_to_hz : float  [Hz]
+        No natural mode of the panel at or below this frequency is missing from ``modes``:
+        ``fmax`` when everything up to it was computed; lower when a limit stopped the solve
+        (the finite-element basis size ``FEM_MAX_MODES``, the reach of an air-loaded basis,
+        or the ``max_modes`` cap, which stops it at the last mode listed). Modes above it may
+        be listed, but the list is not complete there: above it the panel is not assessed.
+    columns : ndarray of int (n_modes,)
+        For mode k, the column of ``coordinates`` holding it, or −1 when it is the single
+        basis mode ``modes[k].index`` (in vacuo, and air-loaded modes above the coupled basis).
     """
 
     modes: tuple[Mode, ...]
     basis: ModalBasis
-    vectors: np.ndarray
+    coordinates: np.ndarray
     loading: str
     notes: tuple[str, ...] = ()
+    complete_to_hz: float = 0.0
+    columns: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=int), repr=False)
+
+    def vector(self, k: int) -> np.ndarray:
+        """Coordinates of reported mode ``k`` in ``basis`` (n_basis,)."""
+        out = np.zeros(len(self.basis))
+        column = int(self.columns[k]) if k < len(self.columns) else -1
+        if column >= 0:
+            out[:self.coordinates.shape[0]] = self.coordinates[:, column]
+        else:
+            out[self.modes[k].index] = 1.0
+        return out
+
+    @property
+    def vectors(self) -> np.ndarray:
+        """Every reported mode's coordinates in ``basis`` (n_basis, n_modes), built on each
+        call: n_basis × n_modes numbers, large for a large panel (prefer :meth:`vector`)."""
+        if not self.modes:
+            return np.zeros((len(self.basis), 0))
+        return np.column_stack([self.vector(k) for k in range(len(self.modes))])
 
     def shape_grid(self, k: int, resolution: int = 48) -> ShapeGrid:
         """Sample reported mode ``k`` on a grid for drawing (NaN outside, max |φ| = 1)."""
@@ -75,8 +118,10 @@ class PanelModes:
         inside = self.basis.region.contains(points)
         values = np.full(points.shape[0], np.nan)
         if inside.any():
-            phi = self.basis.evaluate(points[inside]) @ self.vectors[:, k]
-            peak = np.max(np.abs(phi))
+            vector = self.vector(k)
+            used = np.flatnonzero(vector)
+            phi = self.basis.shapes(points[inside], used) @ vector[used]
+            peak = np.max(np.abs(phi)) if len(phi) else 0.0
             values[inside] = phi / peak if peak > 0 else phi
         return ShapeGrid(label=self.modes[k].label, x=x, y=y, values=values.reshape(ny, nx))
 
@@ -104,30 +149,37 @@ def _outline_of(panel: Panel) -> tuple[tuple[float, float], ...]:
     return ((0.0, 0.0), (w, 0.0), (w, l), (0.0, l))
 
 
-def basis_factory(panel: Panel) -> tuple[Callable[[float], ModalBasis], tuple[str, ...]]:
+def basis_factory(panel: Panel, cache: SolveCache | None = None
+                  ) -> tuple[Callable[..., ModalBasis], tuple[str, ...]]:
     """The in-vacuo basis builder for a panel, and the modelling notes it implies.
 
     Rectangles and circles without cut-outs take the exact analytic path
     (``auditor.physics.membrane``); everything else (polygons, any cut-out, an orthotropic
     circle) the finite-element path (``auditor.physics.fem``), where bending stiffness is
-    neglected (noted).
+    neglected (noted). ``cache`` keeps the finite-element solves (a fresh one when omitted).
+
+    The builder is ``build(f_limit, max_modes=...)``: the basis with every mode up to
+    ``f_limit`` [Hz], or the lowest ``max_modes`` when that is fewer (analytic: default
+    ``ANALYTIC_MAX_BASIS``, None for no cap; finite elements: default ``FEM_MAX_BASIS``, at
+    most ``FEM_MAX_MODES``); its ``complete_to_hz`` says how far it holds every mode.
     """
+    cache = SolveCache() if cache is None else cache
     notes: list[str] = []
     tx, ty, rho = panel.tension_x, panel.tension_y, panel.areal_density
     if panel.shape == "rectangle" and not panel.cutouts:
-        def build(f_limit: float) -> ModalBasis:
+        def build(f_limit: float, max_modes: int | None = ANALYTIC_MAX_BASIS) -> ModalBasis:
             return membrane.rectangular_membrane_basis(
                 tx, ty, rho, panel.width, panel.length, f_limit,
-                bending_stiffness=panel.bending_stiffness, max_modes=ANALYTIC_MAX_BASIS,
+                bending_stiffness=panel.bending_stiffness, max_modes=max_modes,
             )
         if panel.bending_stiffness:
             notes.append("Bending stiffness included with simply supported edges "
                          "(prestressed plate, exact).")
         return build, tuple(notes)
     if panel.shape == "circle" and not panel.cutouts and tx == ty:
-        def build(f_limit: float) -> ModalBasis:
+        def build(f_limit: float, max_modes: int | None = ANALYTIC_MAX_BASIS) -> ModalBasis:
             return membrane.circular_membrane_basis(tx, rho, panel.diameter / 2, f_limit,
-                                                    max_modes=ANALYTIC_MAX_BASIS)
+                                                    max_modes=max_modes)
         if panel.bending_stiffness:
             notes.append("Bending stiffness is not modelled for circular panels; "
                          "membrane tension only.")
@@ -147,40 +199,45 @@ def basis_factory(panel: Panel) -> tuple[Callable[[float], ModalBasis], tuple[st
     area = abs(signed_area(outline)) - sum(abs(signed_area(_cutout_vertices(c)))
                                            for c in panel.cutouts)
 
-    def build(f_limit: float) -> ModalBasis:
+    def build(f_limit: float, max_modes: int | None = FEM_MAX_BASIS) -> ModalBasis:
         # Weyl's law, N(f) ≈ A·π·f²·ρs/√(Tx·Ty), sizes the request in modes (rounded up to a
-        # power of two so that nearby requests share a solve). A large basis is cut at
-        # FEM_MAX_BASIS modes on the coarse mesh: its fundamental agrees with the default mesh
-        # to about 1e-5 and its 40th mode to about 0.1 % (L-shape, measured), while the cost
-        # of resolving hundreds of modes grows steeply.
+        # power of two so that nearby requests share a solve). A basis for the air's coupling
+        # is cut at FEM_MAX_BASIS modes on the coarse mesh: its fundamental agrees with the
+        # default mesh to about 1e-5 and its 40th mode to about 0.1 % (L-shape, measured),
+        # while the cost of resolving hundreds of modes grows steeply; any basis at
+        # FEM_MAX_MODES.
+        cap = FEM_MAX_MODES if max_modes is None else min(int(max_modes), FEM_MAX_MODES)
         expected = area * np.pi * f_limit**2 * rho / np.sqrt(tx * ty)
         wanted = int(np.ceil(1.2 * expected)) + 4
-        count = min(FEM_MAX_BASIS, max(16, 1 << (wanted - 1).bit_length()))
+        count = min(cap, max(16, 1 << (wanted - 1).bit_length()))
         accuracy = "default" if count <= 16 else "coarse"
-        return _scaled_polygon_basis(outline, panel.cutouts, tx, ty, rho, count, accuracy)
+        return _scaled_polygon_basis(outline, panel.cutouts, tx, ty, rho, count, accuracy, cache)
 
     return build, tuple(notes)
 
 
-@lru_cache(maxsize=256)
-def _unit_polygon_basis(outline, cutouts, tension_ratio: float, count: int,
-                        accuracy: str) -> ModalBasis:
+def _unit_polygon_basis(outline, cutouts, tension_ratio: float, count: int, accuracy: str,
+                        cache: SolveCache) -> ModalBasis:
     """A polygon's basis at tension_x = 1 N/m, tension_y = ``tension_ratio``, ρs = 1 kg/m²."""
-    return fem.polygon_membrane_basis(outline, cutouts, 1.0, tension_ratio, 1.0,
-                                      n_modes=count, accuracy=accuracy)
+    return cache.polygon_bases.get(
+        (outline, cutouts, tension_ratio, count, accuracy),
+        lambda: fem.polygon_membrane_basis(outline, cutouts, 1.0, tension_ratio, 1.0,
+                                           n_modes=count, accuracy=accuracy, cache=cache))
 
 
 def _scaled_polygon_basis(outline, cutouts, tx: float, ty: float, rho: float, count: int,
-                          accuracy: str) -> ModalBasis:
+                          accuracy: str, cache: SolveCache) -> ModalBasis:
     """The polygon's basis for the panel's tension and density, by exact rescaling.
 
     At a fixed tension ratio the shapes do not change and every frequency scales as
     √(Tx/ρs) (the operator is −Tx(∂²/∂x² + (Ty/Tx)∂²/∂y²)), so all panels of one outline
-    share one solve *and one shape object*: the loading step caches its air matrices by it.
+    share one solve *and one shape object*: the loading step keeps its air matrices by it.
     """
     unit = _unit_polygon_basis(tuple(outline), tuple(cutouts), round(ty / tx, 9), count,
-                               accuracy)
-    return dataclasses.replace(unit, frequencies_hz=unit.frequencies_hz * np.sqrt(tx / rho))
+                               accuracy, cache)
+    factor = np.sqrt(tx / rho)
+    return dataclasses.replace(unit, frequencies_hz=unit.frequencies_hz * factor,
+                               complete_to_hz=unit.complete_to * factor)
 
 
 #: The panel fields that do not change its modes, and their blank values.
@@ -203,9 +260,10 @@ def modes_for(
     panel: Panel,
     fmax: float,
     *,
-    max_modes: int = DEFAULT_MAX_MODES,
+    max_modes: int | None = None,
     air_density: float = 1.204,
     speed_of_sound: float = 343.0,
+    cache: SolveCache | None = None,
 ) -> PanelModes:
     """Natural modes of one panel up to ``fmax``.
 
@@ -215,14 +273,20 @@ def modes_for(
         SI record from the schedule.
     fmax : float  [Hz]
         Highest frequency of interest.
-    max_modes : int
-        Cap on the number of reported modes.
+    max_modes : int or None
+        Cap on the number of reported modes (the lowest); None (the default): every mode up
+        to ``fmax`` that can be computed (see ``PanelModes.complete_to_hz``).
     air_density : float  [kg/m³]
     speed_of_sound : float  [m/s]
+    cache : SolveCache, optional
+        Solves to share with other calls (every panel of one type in a schedule, every
+        tension of one panel in a remedy scan); the result is the same, bit for bit, whatever
+        the cache holds. Without one, nothing is kept after the call.
 
     Returns
     -------
     PanelModes
+        ``complete_to_hz`` says up to which frequency no mode is missing.
 
     Raises
     ------
@@ -230,65 +294,182 @@ def modes_for(
         When the outline or cut-outs cannot be meshed (self-intersection, a cut-out outside
         the panel, ...).
 
+    Notes
+    -----
+    In vacuo, rectangles and circles are exact and uncapped (every mode up to ``fmax``);
+    polygons reach ``fmax`` or ``FEM_MAX_MODES`` modes, whichever comes first. In air, the
+    lowest modes (about 200 on rectangles and circles, ``FEM_MAX_BASIS`` on polygons) are
+    coupled through the air in full; every mode above them is loaded by its own air mass
+    (:mod:`auditor.physics.uncoupled`, which states its accuracy), so the list reaches
+    ``fmax`` wherever the in-vacuo basis does.
+
     References
     ----------
-    See ``auditor.physics.membrane``, ``auditor.physics.fem`` and ``auditor.physics.fluid``.
+    See ``auditor.physics.membrane``, ``auditor.physics.fem``, ``auditor.physics.fluid`` and
+    ``auditor.physics.uncoupled``.
     """
-    return _modes_cached(physics_key(panel), float(fmax), int(max_modes),
-                         float(air_density), float(speed_of_sound))
+    cap = _checked_cap(max_modes)
+    cache = SolveCache() if cache is None else cache
+    key = (physics_signature(panel), float(fmax), cap, float(air_density),
+           float(speed_of_sound))
+    return cache.panel_modes.get(
+        key, lambda: _solve(physics_key(panel), float(fmax), cap, float(air_density),
+                            float(speed_of_sound), cache))
 
 
-@lru_cache(maxsize=4096)
-def _modes_cached(panel: Panel, fmax: float, max_modes: int, air_density: float,
-                  speed_of_sound: float) -> PanelModes:
-    build, notes = basis_factory(panel)
+def _checked_cap(max_modes) -> int | None:
+    if max_modes is None:
+        return None
+    if isinstance(max_modes, bool) or int(max_modes) != max_modes or max_modes < 0:
+        raise ValueError(f"max_modes must be a whole number ≥ 0 or None, got {max_modes!r}")
+    return int(max_modes)
+
+
+def _solve(panel: Panel, fmax: float, cap: int | None, air_density: float,
+           speed_of_sound: float, cache: SolveCache) -> PanelModes:
+    build, notes = basis_factory(panel, cache)
+    open_mesh = panel.material == "mesh" and panel.airflow_resistance is None
     air = panel.room_side == "air" or panel.plenum_side in ("air", "sealed")
-    if not air:
-        basis = build(fmax)
-        keep = np.flatnonzero(basis.frequencies_hz <= fmax)[:max_modes]
-        eta = structural_loss_factor(panel.material, panel.loss_factor)
-        modes = tuple(
-            Mode(
-                label=basis.labels[i],
-                frequency_hz=float(basis.frequencies_hz[i]),
-                multiplicity=int(basis.multiplicity[i]),
-                participation=float(basis.mean[i] ** 2),
-                nodal_lines=basis.nodal_lines[i],
-                loss_factor=eta,
-                in_vacuo_hz=float(basis.frequencies_hz[i]),
-                index=int(i),
-            )
-            for i in keep
+    if not air or open_mesh:
+        return _in_vacuo(panel, build, notes, fmax, cap, open_mesh)
+    return _in_air(panel, build, notes, fmax, cap, air_density, speed_of_sound, cache)
+
+
+def _in_vacuo(panel: Panel, build, notes, fmax: float, cap: int | None,
+              open_mesh: bool) -> PanelModes:
+    basis = build(fmax, max_modes=None if cap is None else cap + 1)
+    vacuum = np.asarray(basis.frequencies_hz)
+    below = np.flatnonzero(vacuum <= fmax)
+    keep = below[:cap]
+    complete = min(fmax, basis.complete_to, complete_below(vacuum[below], len(keep)))
+    eta = structural_loss_factor(panel.material, panel.loss_factor)
+    modes = tuple(
+        Mode(
+            label=basis.labels[i],
+            frequency_hz=float(vacuum[i]),
+            multiplicity=int(basis.multiplicity[i]),
+            participation=float(basis.mean[i] ** 2),
+            nodal_lines=basis.nodal_lines[i],
+            loss_factor=eta,
+            in_vacuo_hz=float(vacuum[i]),
+            index=int(i),
         )
-        vectors = np.eye(len(basis))[:, keep]
+        for i in keep
+    )
+    if open_mesh:
+        loading = fluid.describe_loading(panel.room_side, panel.plenum_side, panel.cavity_depth,
+                                         panel.airflow_resistance, panel.material)
+    else:
         loading = ("In vacuo: no air on either side (room side and plenum side 'none'); "
                    "structural loss factor only.")
-        return PanelModes(modes, basis, vectors, loading, notes)
+    return PanelModes(modes, basis, np.zeros((0, 0)), loading, notes, float(complete),
+                      np.full(len(modes), -1, dtype=int))
 
-    loaded = fluid.loaded_modes(
-        build, panel.areal_density, fmax=fmax, max_modes=max_modes,
+
+def _loaded(build, panel: Panel, fmax: float, cap: int | None, air_density: float,
+            speed_of_sound: float, cache: SolveCache, max_basis: int) -> fluid.LoadedModes:
+    return fluid.loaded_modes(
+        build, panel.areal_density, fmax=fmax, max_modes=cap,
         room_side=panel.room_side, plenum_side=panel.plenum_side,
         cavity_depth=panel.cavity_depth, airflow_resistance=panel.airflow_resistance,
         material=panel.material, loss_factor=panel.loss_factor,
-        air_density=air_density, speed_of_sound=speed_of_sound,
+        air_density=air_density, speed_of_sound=speed_of_sound, max_basis=max_basis,
+        cache=cache,
     )
+
+
+def _is_prefix(small: ModalBasis, large: ModalBasis) -> bool:
+    """Whether ``small`` is the first modes of ``large`` (same shapes, same order)."""
+    n = len(small)
+    return (n <= len(large) and tuple(small.labels) == tuple(large.labels[:n])
+            and np.array_equal(small.frequencies_hz, np.asarray(large.frequencies_hz)[:n])
+            and small.region == large.region)
+
+
+def _reach_in_air(panel: Panel, fmax: float, air_density: float) -> float:
+    """In-vacuo frequency [Hz] of a mode loaded down to about fmax: ``fmax √(1 + 1.25 μ)``
+    with μ the infinite-panel air mass ratio ``sides ρ0 /(k ρs)`` at k = 2π fmax √(ρs/T)."""
+    sides = (panel.room_side == "air") + (panel.plenum_side in ("air", "sealed"))
+    tension = math.sqrt(panel.tension_x * panel.tension_y)
+    wavenumber = 2 * math.pi * fmax * math.sqrt(panel.areal_density / tension)
+    ratio = sides * air_density / (max(wavenumber, 1e-12) * panel.areal_density)
+    return fmax * min(math.sqrt(1.0 + fluid.REACH_MASS_MARGIN * ratio), MAX_REACH_FACTOR)
+
+
+def _in_air(panel: Panel, build, notes, fmax: float, cap: int | None, air_density: float,
+            speed_of_sound: float, cache: SolveCache) -> PanelModes:
+    polygon = panel.shape == "polygon" or bool(panel.cutouts) or (
+        panel.shape == "circle" and panel.tension_x != panel.tension_y)
+    max_basis = FEM_MAX_BASIS if polygon else 200
+    basis_for = build
+    extended = None
+    if polygon and (cap is None or cap > FEM_MAX_BASIS):
+        # A finite-element mesh depends on the number of modes asked for, so the modes above
+        # the coupled basis must come from the same solve as those coupled: solve once, far
+        # enough for fmax in air (or FEM_MAX_MODES), and couple its first FEM_MAX_BASIS.
+        extended = build(_reach_in_air(panel, fmax, air_density), max_modes=None)
+        basis_for = lambda f_limit, max_modes=None: extended  # noqa: E731
+    loaded = _loaded(basis_for, panel, fmax, cap, air_density, speed_of_sound, cache, max_basis)
     basis = loaded.basis
-    modes = tuple(
-        Mode(
+    complete = loaded.complete_to_hz
+    estimated = None
+    wanted = cap is None or len(loaded) < cap
+    if complete < fmax and wanted and len(basis):
+        if extended is None:
+            # Every mode above the coupled basis, each with its own air load: the basis must
+            # reach the in-vacuo frequency of any mode that could be loaded down to fmax, at
+            # most f_b √(1 + 1.25 μ) above it (μ the top modes' air mass ratio; see
+            # fluid._coupled_reach).
+            reach = fmax * min(basis.complete_to / max(complete, 1e-300), MAX_REACH_FACTOR)
+            extended = build(reach, max_modes=None)
+        if _is_prefix(loaded.basis, extended):
+            eta = structural_loss_factor(panel.material, panel.loss_factor)
+            estimated = uncoupled.uncoupled_loaded_modes(
+                extended, len(loaded.basis), panel.areal_density, fmax=fmax,
+                room_side=panel.room_side, plenum_side=panel.plenum_side,
+                cavity_depth=panel.cavity_depth, airflow_resistance=panel.airflow_resistance,
+                structural_loss_factor=eta, air_density=air_density,
+                speed_of_sound=speed_of_sound, cache=cache)
+            basis = extended
+    coupled = [
+        (float(loaded.frequencies_hz[k]), Mode(
             label=loaded.labels[k],
             frequency_hz=float(loaded.frequencies_hz[k]),
             multiplicity=int(loaded.multiplicity[k]),
             participation=float(loaded.participation[k]),
-            nodal_lines=basis.nodal_lines[int(loaded.dominant[k])],
+            nodal_lines=loaded.basis.nodal_lines[int(loaded.dominant[k])],
             loss_factor=float(loaded.loss_factor[k]),
             in_vacuo_hz=float(loaded.in_vacuo_hz[k]),
             index=int(loaded.dominant[k]),
-        )
-        for k in range(len(loaded.frequencies_hz))
-    )
-    return PanelModes(modes, basis, np.asarray(loaded.vectors), loaded.model, notes)
-
-
-def clear_cache() -> None:
-    """Forget cached solutions (for benchmarks and tests)."""
-    _modes_cached.cache_clear()
+        ), k)
+        for k in range(len(loaded))
+    ]
+    entries = list(coupled)
+    loading = loaded.model
+    if estimated is not None:
+        complete = estimated.complete_to_hz
+        for j, i in enumerate(estimated.indices):
+            i = int(i)
+            entries.append((float(estimated.frequencies_hz[j]), Mode(
+                label=basis.labels[i],
+                frequency_hz=float(estimated.frequencies_hz[j]),
+                multiplicity=int(basis.multiplicity[i]),
+                participation=float(basis.mean[i] ** 2),
+                nodal_lines=basis.nodal_lines[i],
+                loss_factor=float(estimated.loss_factor[j]),
+                in_vacuo_hz=float(basis.frequencies_hz[i]),
+                index=i,
+            ), -1))
+        if len(estimated.indices):
+            loading += (f" Modes above the {len(loaded.basis)} coupled through the air: each "
+                        "loaded by its own air mass (Rayleigh self term, or ρ0/k on a "
+                        "polygon), within about 1 % (2 % on a polygon); structural and porous "
+                        "losses only.")
+    entries.sort(key=lambda entry: entry[0])
+    frequencies = np.array([entry[0] for entry in entries])
+    kept = entries[:cap]
+    complete = min(fmax, complete, complete_below(frequencies, len(kept)))
+    modes = tuple(entry[1] for entry in kept)
+    columns = np.array([entry[2] for entry in kept], dtype=int)
+    return PanelModes(modes, basis, np.asarray(loaded.vectors), loading, notes, float(complete),
+                      columns)
