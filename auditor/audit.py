@@ -1,8 +1,21 @@
-"""The audit pipeline: schedule → modes and excitations → findings with remedies → AuditResult.
+"""The audit pipeline: schedule → modes and excitations → verdicts and remedies → AuditResult.
 
 One direction of data flow (DESIGN.md). Nothing here reads or writes files except through
 ``read_schedule`` (and the tap-test recordings when calibrating); the writers in
 ``auditor.report`` only read the ``AuditResult``.
+
+The steps, for each panel:
+
+1. the tones reaching it (by zone), and from them its assessment limit
+   (``auditor.judgement.screening.assessment_limit_hz``): every mode up to it counts;
+2. its modes up to that limit on the full model (``auditor.physics.modes.modes_for``, no count
+   of modes), with the frequency up to which none is missing (``complete_to_hz``);
+3. its findings, ranked by response, and its verdict (``auditor.judgement.verdict``);
+4. for a panel with findings, its one remedy (``auditor.remedy.panel_remedy``), verified on
+   the full model.
+
+Panels of one construction in one zone share steps 2–4. The audit owns one solve cache and
+passes it to every solve, so the result does not depend on what ran before.
 """
 
 from __future__ import annotations
@@ -10,44 +23,88 @@ from __future__ import annotations
 import dataclasses
 import datetime as _dt
 from collections.abc import Callable, Sequence
+from dataclasses import dataclass
 from pathlib import Path
 
 from auditor import __version__
-from auditor._gc import collector_paused
-from auditor.excitation import excitations_for_schedule
+from auditor.excitation import excitations_for_schedule, mount_of
+from auditor.judgement.screening import ExcitationArrays, assessment_limit_hz, reaching
+from auditor.judgement.verdict import PanelAssessment, assess_panel
 from auditor.model import (
-    AuditResult, Equipment, Excitation, Finding, Panel, PanelResult, RowProblem, Schedule,
+    AuditResult, Equipment, Excitation, Finding, Mode, Panel, PanelResult, Remedy, RowProblem,
+    Schedule, ShapeGrid, finding_rank,
 )
+from auditor.physics.cache import SolveCache
 from auditor.physics.modes import GeometryError, PanelModes, modes_for, physics_signature
-from auditor.rules import (
-    RuleSet, findings_for_panel, findings_with_remedies, load_ruleset, mode_frequency_limit,
-)
+from auditor.remedy import panel_remedy
+from auditor.rules import RuleSet, load_ruleset
 from auditor.schedule import read_schedule
 
 Progress = Callable[[int, int], None]
 
-#: Modes computed for fitting tap tests: up to this frequency [Hz] and this many.
+#: Modes computed for fitting tap tests: up to this frequency [Hz] and this many (fitting
+#: needs the lowest modes only; the judgement has no count of modes).
 CALIBRATION_FMAX_HZ = 1500.0
 CALIBRATION_MAX_MODES = 40
 
 
 def equipment_excitations(
     schedule: Schedule, ruleset: RuleSet
-) -> tuple[dict[str, tuple[Excitation, ...]], list[RowProblem]]:
-    """Excitations of every equipment item by tag, and a problem for each item that has none."""
+) -> tuple[tuple[tuple[Equipment, tuple[Excitation, ...]], ...], list[RowProblem]]:
+    """Every equipment item with its excitations, and the problems (an error for each item
+    that has none, a warning for each tone a mount amplifies)."""
     pairs, problems = excitations_for_schedule(
         schedule.equipment, ruleset, project_line_frequency=schedule.project.line_frequency)
-    return {item.equipment: excitations for item, excitations in pairs}, list(problems)
+    return pairs, list(problems)
 
 
-def reaching(panel: Panel, equipment: Sequence[Equipment],
-             table: dict[str, tuple[Excitation, ...]], ruleset: RuleSet) -> tuple[Excitation, ...]:
-    """The excitations that reach ``panel`` (by zone when the rule set says so)."""
-    out: list[Excitation] = []
-    for item in equipment:
-        if item.equipment in table and (not ruleset.use_zones or item.reaches(panel.zone)):
-            out.extend(table[item.equipment])
-    return tuple(out)
+def panel_solver(fmax: float, air_density: float, speed_of_sound: float,
+                 cache: SolveCache) -> Callable[[Panel], PanelModes]:
+    """The full model for one assessment limit: a panel → every one of its modes up to
+    ``fmax`` (no count of modes), sharing the audit's solve cache."""
+    def solve(panel: Panel) -> PanelModes:
+        return modes_for(panel, fmax, max_modes=None, air_density=air_density,
+                         speed_of_sound=speed_of_sound, cache=cache)
+    return solve
+
+
+@dataclass(frozen=True)
+class _Judged:
+    """What panels of one construction in one zone share (the solve itself is not kept)."""
+
+    modes: tuple[Mode, ...]
+    loading: str
+    notes: tuple[str, ...]
+    shapes: tuple[ShapeGrid, ...]
+    assessment: PanelAssessment
+    remedy: Remedy | None
+
+
+def judge_panel(panel: Panel, excitations: ExcitationArrays, ruleset: RuleSet,
+                solve: Callable[[Panel], PanelModes], limit_hz: float, *,
+                with_shapes: bool = True) -> _Judged:
+    """Steps 2–4 for one panel (see the module docstring).
+
+    ``solve`` may compute modes above ``limit_hz`` (panels of one construction in zones with
+    different limits share one solve); only those up to the limit are judged and listed.
+
+    Raises
+    ------
+    ValueError
+        When the physics cannot solve the panel (``GeometryError`` included).
+    """
+    panel_modes = solve(panel)
+    assessment = assess_panel(panel, panel_modes.modes, excitations, ruleset,
+                              limit_hz=limit_hz, complete_to_hz=panel_modes.complete_to_hz)
+    remedy = None
+    if assessment.findings:
+        remedy = panel_remedy(
+            panel, excitations, ruleset, solve, limit_hz=limit_hz, solved=panel_modes,
+            beyond_hz=assessment.assessed_to_hz if assessment.beyond else None)
+    listed = tuple(m for m in panel_modes.modes if m.frequency_hz <= limit_hz)
+    return _Judged(listed, panel_modes.loading, panel_modes.notes + assessment.notes,
+                   _shapes(panel_modes, assessment.findings) if with_shapes else (),
+                   assessment, remedy)
 
 
 def audit_schedule(
@@ -77,70 +134,77 @@ def audit_schedule(
     created : str, optional
         ISO 8601 time stamp for the result (default: now, local time).
     """
-    air_density = schedule.project.air_density
-    speed_of_sound = schedule.project.speed_of_sound
-    table, problems = equipment_excitations(schedule, ruleset)
+    project = schedule.project
+    pairs, problems = equipment_excitations(schedule, ruleset)
     problems = list(schedule.problems) + problems
     replaced = {p.panel: p for p in calibrated}
+    panels = [replaced.get(p.panel, p) for p in schedule.panels]
+    # The tones reaching each zone and its assessment limit; each construction is solved once,
+    # up to the highest limit among the zones it is used in.
+    zones: dict[str, tuple[ExcitationArrays, float]] = {}
+    solve_to: dict[tuple, float] = {}
+    for panel in panels:
+        zone = _zone(panel, ruleset)
+        if zone not in zones:
+            excitations = ExcitationArrays.of(reaching(panel, pairs, ruleset))
+            zones[zone] = (excitations, assessment_limit_hz(ruleset, excitations.top_hz))
+        signature = physics_signature(panel)
+        solve_to[signature] = max(solve_to.get(signature, 0.0), zones[zone][1])
     peaks = measured_peaks or {}
-    cache: dict[tuple, tuple[PanelModes | None, tuple[Finding, ...], str | None]] = {}
+    cache = SolveCache()
+    judged: dict[tuple, _Judged | ValueError] = {}
     results: list[PanelResult] = []
-    total = len(schedule.panels)
-    by_zone: dict[str, tuple[tuple[Excitation, ...], float]] = {}
-    # Findings are many small acyclic records (see auditor._gc).
-    with collector_paused():
-        for done, scheduled in enumerate(schedule.panels, start=1):
-            panel = replaced.get(scheduled.panel, scheduled)
-            zone = panel.zone.strip().casefold() if ruleset.use_zones else ""
-            if zone not in by_zone:
-                excitations = reaching(panel, schedule.equipment, table, ruleset)
-                # A panel no equipment reaches still has its modes listed, up to the fixed limit.
-                fmax = mode_frequency_limit(ruleset, excitations) or (ruleset.fmax_hz or 500.0)
-                by_zone[zone] = (excitations, fmax)
-            excitations, fmax = by_zone[zone]
-            key = (physics_signature(panel), panel.max_tension, zone)
-            if key not in cache:
-                cache[key] = _solve(panel, excitations, fmax, ruleset, air_density, speed_of_sound)
-            panel_modes, findings, error = cache[key]
-            if error is not None:
-                problems.append(unsolvable_problem(panel, error))
-            else:
-                findings = findings_for_panel(findings, panel.panel)
-                shapes = _shapes(panel_modes, findings) if with_shapes else ()
-                notes = panel_modes.notes + (
-                    ("Tension fitted to the site tap test.",) if panel is not scheduled else ())
-                results.append(PanelResult(
-                    panel=panel, modes=panel_modes.modes, findings=findings,
-                    loading=panel_modes.loading, notes=notes, shapes=shapes,
-                    measured_peaks_hz=tuple(peaks.get(panel.panel, ())),
-                ))
-            if progress is not None:
-                progress(done, total)
+    for done, (scheduled, panel) in enumerate(zip(schedule.panels, panels), start=1):
+        zone = _zone(panel, ruleset)
+        excitations, limit = zones[zone]
+        signature = physics_signature(panel)
+        key = (signature, panel.max_tension, zone)
+        if key not in judged:
+            solve = panel_solver(solve_to[signature], project.air_density,
+                                 project.speed_of_sound, cache)
+            try:
+                judged[key] = judge_panel(panel, excitations, ruleset, solve, limit,
+                                          with_shapes=with_shapes)
+            except ValueError as exc:  # GeometryError included: the message says what is wrong
+                judged[key] = exc
+        got = judged[key]
+        if isinstance(got, ValueError):
+            problems.append(unsolvable_problem(panel, got))
+        else:
+            results.append(_panel_result(panel, scheduled, got, peaks))
+        if progress is not None:
+            progress(done, len(panels))
     return AuditResult(
         schedule=schedule,
         panels=tuple(results),
-        excitations=tuple(table.items()),
+        excitations=tuple((item.equipment, excs) for item, excs in pairs),
         ruleset=ruleset,
         problems=tuple(problems),
         version=__version__,
         created=created or _dt.datetime.now().astimezone().isoformat(timespec="seconds"),
         calibrated=bool(calibrated),
+        mounts=tuple((item.equipment, mount_of(item)) for item, _ in pairs),
     )
 
 
-def _solve(panel: Panel, excitations: tuple[Excitation, ...], fmax: float, ruleset: RuleSet,
-           air_density: float, speed_of_sound: float):
-    def solve(candidate: Panel) -> PanelModes:
-        return modes_for(candidate, fmax, max_modes=ruleset.max_modes,
-                         air_density=air_density, speed_of_sound=speed_of_sound)
+def _zone(panel: Panel, ruleset: RuleSet) -> str:
+    return panel.zone.strip().casefold() if ruleset.use_zones else ""
 
-    try:
-        panel_modes = solve(panel)
-    except ValueError as exc:  # GeometryError included: the message says what is wrong
-        return None, (), exc
-    findings = findings_with_remedies(panel, panel_modes.modes, excitations, ruleset,
-                                      lambda candidate: solve(candidate).modes)
-    return panel_modes, tuple(findings), None
+
+def _panel_result(panel: Panel, scheduled: Panel, got: _Judged,
+                  peaks: dict[str, tuple[float, ...]]) -> PanelResult:
+    assessment = got.assessment
+    findings = tuple(f if f.panel == panel.panel else dataclasses.replace(f, panel=panel.panel)
+                     for f in sorted(assessment.findings, key=finding_rank))
+    notes = got.notes + (("Tension fitted to the site tap test.",)
+                         if panel is not scheduled else ())
+    return PanelResult(
+        panel=panel, modes=got.modes, findings=findings, loading=got.loading, notes=notes,
+        shapes=got.shapes, measured_peaks_hz=tuple(peaks.get(panel.panel, ())),
+        assessed_to_hz=assessment.assessed_to_hz, verdict=assessment.verdict,  # type: ignore[arg-type]
+        verdict_reason=assessment.reason, overlap_from_hz=assessment.overlap_from_hz,
+        beyond=assessment.beyond, remedy=got.remedy,
+    )
 
 
 def unsolvable_problem(panel: Panel, error: ValueError) -> RowProblem:
@@ -161,7 +225,8 @@ def unsolvable_problem(panel: Panel, error: ValueError) -> RowProblem:
 
 
 def calibration_modes(project) -> Callable[[Panel], tuple]:
-    """The full model for fitting tap tests: a panel's modes up to ``CALIBRATION_FMAX_HZ``."""
+    """The full model for fitting tap tests: a panel's lowest modes up to
+    ``CALIBRATION_FMAX_HZ``."""
     def modes_of(panel: Panel):
         return modes_for(panel, CALIBRATION_FMAX_HZ, max_modes=CALIBRATION_MAX_MODES,
                          air_density=project.air_density,

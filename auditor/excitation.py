@@ -31,7 +31,14 @@ drive's output frequency, ``2·f_line·n/n_line`` with ``n_line`` the motor's sp
 frequency (its ``rpm``, or synchronous speed less slip).
 
 Whether a source reaches a panel only as sound in air (``airborne``) or through the structure
-is the rule set's ``[paths]``.
+is the rule set's ``[paths]``. A structure-borne tone of an item of equipment (shaft rate,
+electromagnetic, belt-pass, and any source the rule set routes through the structure) passes
+through the item's mount: ``Excitation.mount`` and ``Excitation.transmissibility`` (the largest
+over the line or band) come from the isolators' static deflection and damping
+(``auditor.judgement.response``); a blank deflection is a rigid mount, assumed and recorded
+(``Mount.rigid_assumed``). Vortex shedding acts on the wire itself and has no mount. A tone
+within √2 of the mount's own natural frequency is amplified by it (T > 1): that is a warning
+on the equipment's row (``mount_warnings``), and the amplified tone is judged as such.
 
 References
 ----------
@@ -39,6 +46,8 @@ References
    vortex shedding ``f = St·U/D``, St ≈ 0.2 for a circular cylinder in the subcritical range.
 .. [2] ASHRAE Handbook — HVAC Applications, ch. "Noise and Vibration Control": blade-pass,
    shaft, electromagnetic (twice line frequency) and belt frequencies (common practice).
+.. [3] Harris' Shock and Vibration Handbook, 5th ed., vibration isolation chapter
+   (transmissibility, natural frequency from static deflection).
 """
 
 from __future__ import annotations
@@ -47,7 +56,11 @@ import math
 from collections.abc import Iterable
 from dataclasses import dataclass
 
-from auditor.model import Equipment, Excitation, RowProblem
+from auditor.judgement.response import (
+    STANDARD_GRAVITY, default_isolator_damping, isolator_kind, mount_natural_frequency_hz,
+    transmissibility,
+)
+from auditor.model import Equipment, Excitation, Mount, RowProblem
 from auditor.rules import RuleSet
 
 __all__ = [
@@ -62,7 +75,17 @@ __all__ = [
     "transformer_hum_hz",
     "belt_pass_hz",
     "vortex_shedding_hz",
+    "mount_of",
+    "mount_warnings",
+    "DIRECT_SOURCES",
 ]
+
+#: Sources that act on the panel itself, not through an item's mount.
+DIRECT_SOURCES: tuple[str, ...] = ("vortex shedding",)
+
+#: The ratio of forcing to mount frequency a remedy for an amplifying mount aims at: r = 3
+#: passes T ≈ 1/8 of the force (common practice of isolator selection).
+ISOLATION_RATIO = 3.0
 
 
 class ExcitationError(ValueError):
@@ -242,6 +265,8 @@ _COLUMNS = {
     "pulley_diameter": ("pulley diameter", ("pulley",)),
     "belt_length": ("belt length", ("belt",)),
     "kind": ("kind", ("kind", "type")),
+    "isolator_deflection": ("isolator deflection", ("deflection",)),
+    "isolator_damping": ("isolator damping", ("damping",)),
 }
 
 
@@ -453,11 +478,13 @@ def excitations_for(
             column="harmonics", record=equipment.equipment,
             message=f"{equipment.kind} {equipment.equipment}: harmonics must be a whole "
                     f"number of 0 or more, not {equipment.harmonics!r}"))
+    mount = mount_of(equipment)
     out: list[Excitation] = []
     for source in sources:
         count = equipment.harmonics if equipment.harmonics is not None \
             else ruleset.harmonics_for(source.source)
         airborne = ruleset.is_airborne(source.source)
+        through_mount = not airborne and source.source not in DIRECT_SOURCES
         for k in range(1, count + 1):
             if source.per_rpm is not None:
                 lo, hi = k * source.per_rpm * n_lo, k * source.per_rpm * n_hi
@@ -474,7 +501,90 @@ def excitations_for(
                 frequency_hz=math.sqrt(lo * hi) if band else lo,
                 band_hz=band,
                 airborne=airborne,
+                mount=mount if through_mount else None,
+                transmissibility=worst_transmissibility(mount, lo, hi) if through_mount
+                else 1.0,
             ))
+    return tuple(out)
+
+
+def mount_of(equipment: Equipment) -> Mount:
+    """The item's mount from its isolator deflection and damping.
+
+    A blank deflection is a rigid mount, assumed (``rigid_assumed``); a blank damping ratio
+    takes the default for the isolator's kind (``auditor.judgement.response``: steel spring
+    from 12 mm static deflection, elastomer below; common practice).
+
+    Raises
+    ------
+    ExcitationError
+        A deflection that is not a positive length, or a damping ratio outside 0 to 1.
+    """
+    deflection, damping = equipment.isolator_deflection, equipment.isolator_damping
+    if deflection is None:
+        return Mount()
+    if not (isinstance(deflection, (int, float)) and math.isfinite(deflection)
+            and deflection > 0):
+        raise _problem(equipment, "isolator_deflection",
+                       f"isolator deflection must be a positive length, not {deflection!r}")
+    if damping is not None and not (isinstance(damping, (int, float))
+                                    and math.isfinite(damping) and 0 <= damping < 1):
+        raise _problem(equipment, "isolator_damping",
+                       f"isolator damping is a damping ratio ζ from 0 up to 1 (e.g. 0.01 for "
+                       f"steel springs), not {damping!r}")
+    return Mount(
+        kind=isolator_kind(deflection),
+        static_deflection=float(deflection),
+        damping_ratio=float(damping) if damping is not None
+        else default_isolator_damping(deflection),
+        natural_frequency_hz=mount_natural_frequency_hz(deflection),
+        rigid_assumed=False,
+        damping_assumed=damping is None,
+    )
+
+
+def worst_transmissibility(mount: Mount, low_hz: float, high_hz: float) -> float:
+    """The largest transmissibility of ``mount`` over a line or band [-] (1 when rigid)."""
+    fn = mount.natural_frequency_hz
+    if fn is None:
+        return 1.0
+    points = [low_hz, high_hz, min(max(fn, low_hz), high_hz)]
+    return float(max(transmissibility(f, fn, mount.damping_ratio) for f in points))
+
+
+def mount_warnings(equipment: Equipment,
+                   excitations: Iterable[Excitation]) -> tuple[RowProblem, ...]:
+    """A warning for each source of an isolated item whose tone its mount amplifies.
+
+    A tone below √2 times the mount's natural frequency is passed with T > 1 (Harris): the
+    isolators make it worse, not better. The warning names the tone, T and the static
+    deflection that would put it ``ISOLATION_RATIO`` × above the mount's frequency.
+    """
+    out: list[RowProblem] = []
+    seen: set[str] = set()
+    for e in excitations:
+        mount = e.mount
+        if mount is None or mount.natural_frequency_hz is None or e.source in seen:
+            continue
+        fn = mount.natural_frequency_hz
+        if e.low_hz >= math.sqrt(2.0) * fn:
+            continue
+        seen.add(e.source)
+        needed = STANDARD_GRAVITY * (ISOLATION_RATIO / (2 * math.pi * e.low_hz)) ** 2
+        column, text = _column(equipment, "isolator_deflection")
+        tone = (f"{e.band_hz[0]:.3g}–{e.band_hz[1]:.3g} Hz" if e.band_hz
+                else f"{e.frequency_hz:.3g} Hz")
+        out.append(RowProblem(
+            file=equipment.source.file, sheet=equipment.source.sheet,
+            row=equipment.source.row, column=column, text=text, severity="warning",
+            record=equipment.equipment,
+            message=(f"{equipment.kind} {equipment.equipment}: its {e.description} ({tone}) "
+                     f"is within √2 of the natural frequency of its mounts ({mount.description}),"
+                     f" which amplify it (transmissibility up to {e.transmissibility:.2g}) "
+                     f"instead of isolating it; a static deflection of at least "
+                     f"{needed * 1e3:.0f} mm would put it {ISOLATION_RATIO:g}× above the "
+                     f"mounts' frequency (common practice)."),
+        ))
     return tuple(out)
 
 
@@ -487,16 +597,20 @@ def excitations_for_schedule(
     Returns
     -------
     pairs : tuple of (Equipment, tuple of Excitation)
-        Ready for ``auditor.rules.ExcitationTable.from_equipment``.
+        Zones are applied per panel (``auditor.judgement.screening.reaching``).
     problems : tuple of RowProblem
-        One per rejected item, naming its row and column.
+        One error per rejected item, naming its row and column, and a warning for each tone
+        an item's mounts amplify (``mount_warnings``).
     """
     pairs: list[tuple[Equipment, tuple[Excitation, ...]]] = []
     problems: list[RowProblem] = []
     for item in equipment:
         try:
-            pairs.append((item, excitations_for(
-                item, ruleset, project_line_frequency=project_line_frequency)))
+            excitations = excitations_for(item, ruleset,
+                                          project_line_frequency=project_line_frequency)
         except ExcitationError as exc:
             problems.append(exc.problem)
+            continue
+        pairs.append((item, excitations))
+        problems.extend(mount_warnings(item, excitations))
     return tuple(pairs), tuple(problems)

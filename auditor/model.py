@@ -23,7 +23,10 @@ EquipmentKind = Literal[
     "fan", "pump", "motor", "compressor", "transformer", "belt", "flow", "tone"
 ]
 FindingSeverity = Literal["conflict", "caution"]
+Verdict = Literal["clear", "caution", "conflict", "not assessed"]
 
+#: A panel's verdicts, worst first.
+VERDICTS: tuple[str, ...] = ("conflict", "not assessed", "caution", "clear")
 SHAPES: tuple[str, ...] = ("rectangle", "circle", "polygon")
 MATERIALS: tuple[str, ...] = ("film", "fabric", "mesh", "plate")
 ROOM_SIDES: tuple[str, ...] = ("air", "none")
@@ -294,6 +297,46 @@ class Mode:
 
 
 @dataclass(frozen=True)
+class Mount:
+    """How an item of equipment stands on the structure, as far as its tones are concerned.
+
+    Parameters
+    ----------
+    kind : {"rigid", "steel spring", "elastomer"}
+        "rigid" when the schedule gives no isolator deflection (an assumption the report
+        states: ``rigid_assumed``).
+    static_deflection : float or None  [m]
+    damping_ratio : float or None  [-]
+        ζ of the isolators; the default for the kind when the schedule gives none
+        (``damping_assumed``).
+    natural_frequency_hz : float or None  [Hz]
+        ``√(g/δ)/2π``; None when rigid.
+    rigid_assumed : bool
+        True when no deflection was given and the item was taken as rigidly mounted.
+    damping_assumed : bool
+        True when ζ is the default for the kind (common practice), not the schedule's.
+    """
+
+    kind: str = "rigid"
+    static_deflection: float | None = None
+    damping_ratio: float | None = None
+    natural_frequency_hz: float | None = None
+    rigid_assumed: bool = True
+    damping_assumed: bool = False
+
+    @property
+    def description(self) -> str:
+        """In words, e.g. "steel spring, 25 mm static deflection (3.15 Hz), ζ 0.01 assumed"."""
+        if self.static_deflection is None or self.natural_frequency_hz is None:
+            return "rigid (assumed: no isolator deflection given)" if self.rigid_assumed \
+                else "rigid"
+        zeta = "" if self.damping_ratio is None else (
+            f", ζ {self.damping_ratio:g}" + (" assumed" if self.damping_assumed else ""))
+        return (f"{self.kind}, {self.static_deflection * 1e3:.3g} mm static deflection "
+                f"({self.natural_frequency_hz:.3g} Hz){zeta}")
+
+
+@dataclass(frozen=True)
 class Excitation:
     """One forcing line or band from one item of equipment.
 
@@ -318,6 +361,13 @@ class Excitation:
         True when the excitation reaches a panel only as sound in air (then a mode with a
         small uniform-pressure participation cannot be driven hard); False for
         structure-borne paths (shaft and electromagnetic forces through fixings).
+    mount : Mount or None
+        The equipment's mount when the tone reaches the structure through it (structure-borne
+        tones of equipment); None for airborne tones and direct ones (vortex shedding on a
+        wire acts on the panel itself).
+    transmissibility : float  [-]
+        The largest fraction of the force the mount passes over the line or band (1 for a
+        rigid mount and for tones that do not go through a mount).
     """
 
     equipment: str
@@ -328,6 +378,15 @@ class Excitation:
     frequency_hz: float
     band_hz: tuple[float, float] | None = None
     airborne: bool = True
+    mount: Mount | None = None
+    transmissibility: float = 1.0
+
+    @property
+    def path(self) -> str:
+        """"airborne", "structure-borne" (through the equipment's mount) or "direct"."""
+        if self.airborne:
+            return "airborne"
+        return "structure-borne" if self.mount is not None else "direct"
 
     @property
     def low_hz(self) -> float:
@@ -340,14 +399,30 @@ class Excitation:
 
 @dataclass(frozen=True)
 class Remedy:
-    """What would clear a conflict.
+    """One panel's remedy: the tension, or the support spacing, that clears its conflicts.
 
-    ``tension`` [N/m] is the new tension along x (both tensions scaled together for an
-    orthotropic panel), None when no tension within range clears it; ``bays`` is the number
-    of equal bays (intermediate supports across the longer side) that clears it, None when
-    not needed or not possible; ``text`` says it in words. ``work`` is True when the remedy
-    changes a tension or adds supports: work on a stretched system, to which the safety note
-    (``auditor.remedy.SAFETY_NOTE``) applies.
+    Parameters
+    ----------
+    tension : float or None  [N/m]
+        The proposed tension along x (both tensions scaled together for an orthotropic
+        panel); None when no tension within the rated range clears the conflicts.
+    bays : int or None
+        The fewest equal bays (intermediate supports across the longer side) that clear them
+        at the scheduled tension, when no tension does; None otherwise.
+    text : str
+        The remedy in words.
+    tension_y : float or None  [N/m]
+        The proposed tension along y.
+    work : bool
+        True when the remedy changes a tension or adds supports: work on a stretched system,
+        to which the safety note (``auditor.remedy.SAFETY_NOTE``) applies.
+    clear_windows : tuple of (low, high)  [N/m]
+        Every range of tension_x within the rated range at which the panel has no conflict.
+    verified : bool
+        True when the proposed tension (or bay size) was solved again on the full model and
+        judged clear of conflicts.
+    cautions : int
+        Cautions left at the proposed tension (or bays).
     """
 
     tension: float | None
@@ -355,6 +430,9 @@ class Remedy:
     text: str
     tension_y: float | None = None
     work: bool = False
+    clear_windows: tuple[tuple[float, float], ...] = ()
+    verified: bool = False
+    cautions: int = 0
 
 
 @dataclass(frozen=True)
@@ -362,7 +440,20 @@ class Finding:
     """A (mode, excitation) pair that matters to the rule set.
 
     ``separation`` is signed: (mode − excitation) / excitation for a line; for a band, the
-    distance to its nearest edge over that edge, 0 inside the band.
+    distance to its nearest edge over that edge, 0 inside the band. ``margin`` is the
+    (widened) margin the pair was judged by.
+
+    ``response_db`` estimates how strongly the mode answers:
+    ``20·log10(participation × amplification × transmissibility)``, 0 dB being a fully
+    participating mode driven quasi-statically through a rigid path (see
+    ``auditor.judgement.response``). ``amplification`` is the mode's hysteretic
+    single-degree-of-freedom amplification at this separation, ``transmissibility`` the
+    equipment mount's at the tone's frequency nearest the mode (1 for airborne and direct
+    tones). ``overlap`` is True when the mode lies where modes overlap (modal overlap ≥ 1),
+    where the pair was judged by its participation and response rather than nearness.
+
+    ``remedy`` is kept for the writers and is always None: the remedy is the panel's
+    (``PanelResult.remedy``).
     """
 
     panel: str
@@ -372,6 +463,16 @@ class Finding:
     severity: FindingSeverity
     margin: float
     remedy: Remedy | None = None
+    response_db: float = 0.0
+    amplification: float = 1.0
+    transmissibility: float = 1.0
+    overlap: bool = False
+
+
+def finding_rank(finding: Finding) -> tuple:
+    """Sort key, worst first: conflicts before cautions, then by response (largest first),
+    then by |separation|."""
+    return (finding.severity != "conflict", -finding.response_db, abs(finding.separation))
 
 
 @dataclass(frozen=True, eq=False)
@@ -391,10 +492,35 @@ class ShapeGrid:
 
 @dataclass(frozen=True)
 class PanelResult:
-    """One panel's modes and findings, and which model gave them.
+    """One panel's modes, findings, verdict and remedy, and which model gave them.
 
-    ``shapes`` holds drawings of the modes named in findings (and the fundamental);
-    ``measured_peaks_hz`` the tap-test peaks when a recording was used.
+    Parameters
+    ----------
+    panel : Panel
+    modes : tuple of Mode
+        Every mode computed for the panel (up to the assessment limit).
+    findings : tuple of Finding
+        Worst first (``finding_rank``).
+    loading : str
+        The loading model that applied, in words.
+    notes : tuple of str
+    shapes : tuple of ShapeGrid
+        Drawings of the modes named in findings (and the fundamental).
+    measured_peaks_hz : tuple of float  [Hz]
+        The tap-test peaks when a recording was used.
+    assessed_to_hz : float  [Hz]
+        Every mode up to this frequency was computed and judged; no verdict is given above it.
+    verdict : {"clear", "caution", "conflict", "not assessed"}
+        "not assessed" when a tone reaching the panel lies (with its caution margin) above
+        ``assessed_to_hz`` and the panel has no conflict; never "clear" then.
+    verdict_reason : str
+        Why, in words.
+    overlap_from_hz : float or None  [Hz]
+        Where the modes begin to overlap (modal overlap η·f·n(f) ≥ 1), when known.
+    beyond : tuple of Excitation
+        The tones reaching the panel above ``assessed_to_hz``.
+    remedy : Remedy or None
+        The panel's one remedy (None for a panel with no finding).
     """
 
     panel: Panel
@@ -404,11 +530,34 @@ class PanelResult:
     notes: tuple[str, ...] = ()
     shapes: tuple[ShapeGrid, ...] = ()
     measured_peaks_hz: tuple[float, ...] = ()
+    assessed_to_hz: float = float("inf")
+    verdict: Verdict = "clear"
+    verdict_reason: str = ""
+    overlap_from_hz: float | None = None
+    beyond: tuple[Excitation, ...] = ()
+    remedy: Remedy | None = None
 
     @property
     def status(self) -> str:
-        sev = {f.severity for f in self.findings}
-        return "conflict" if "conflict" in sev else "caution" if "caution" in sev else "clear"
+        """The three-way status the writers knew ("conflict", "caution", "clear"): the
+        verdict with "not assessed" shown as "caution", never milder than the findings say,
+        and never "clear" above the assessed range. Prefer ``verdict``."""
+        severities = {f.severity for f in self.findings}
+        if "conflict" in severities or self.verdict == "conflict":
+            return "conflict"
+        if "caution" in severities or self.verdict in ("caution", "not assessed"):
+            return "caution"
+        return "clear"
+
+    @property
+    def worst_db(self) -> float:
+        """The largest response among the findings [dB] (−inf with none)."""
+        return max((f.response_db for f in self.findings), default=float("-inf"))
+
+    def rank(self) -> tuple:
+        """Sort key, worst first: by verdict (conflict, not assessed, caution, clear), then by
+        the worst finding's response."""
+        return (VERDICTS.index(self.verdict), -self.worst_db)
 
 
 @dataclass(frozen=True)
@@ -416,8 +565,10 @@ class AuditResult:
     """Everything the writers need; they only read it.
 
     ``ruleset`` is an ``auditor.rules.RuleSet``; ``excitations`` maps each equipment tag to
-    its excitations; ``problems`` holds the schedule's problems plus any raised while
-    auditing (a panel whose geometry the physics could not mesh, say).
+    its excitations (each structure-borne one carries its ``Mount``); ``mounts`` maps each
+    equipment tag to its mount; ``problems`` holds the schedule's problems plus any raised
+    while auditing (a panel whose geometry the physics could not mesh, a mount that
+    amplifies a tone, say).
     """
 
     schedule: Schedule
@@ -428,26 +579,35 @@ class AuditResult:
     version: str
     created: str  # ISO 8601 date-time of the audit
     calibrated: bool = False
+    mounts: tuple[tuple[str, Mount], ...] = ()
 
     @property
     def findings(self) -> tuple[Finding, ...]:
-        return tuple(f for p in self.panels for f in p.findings)
+        """Every finding, worst first (``finding_rank``)."""
+        return tuple(sorted((f for p in self.panels for f in p.findings), key=finding_rank))
+
+    def ranked_panels(self) -> tuple[PanelResult, ...]:
+        """The panels worst first (``PanelResult.rank``); schedule order among equals."""
+        return tuple(sorted(self.panels, key=PanelResult.rank))
 
     def summary(self) -> dict[str, int]:
-        conflicts = cautions = with_conflicts = clear = 0
+        conflicts = cautions = with_conflicts = clear = not_assessed = 0
         for p in self.panels:
             c = sum(1 for f in p.findings if f.severity == "conflict")
             conflicts += c
             cautions += sum(1 for f in p.findings if f.severity == "caution")
             with_conflicts += c > 0
-            clear += not p.findings
+            clear += p.verdict == "clear"
+            not_assessed += p.verdict == "not assessed"
+        rejected = {(p.file, p.sheet, p.row) for p in self.problems if p.severity == "error"}
         return {
             "panels": len(self.schedule.panels),
             "equipment": len(self.schedule.equipment),
-            "rejected_rows": sum(1 for p in self.problems if p.severity == "error"),
+            "rejected_rows": len(rejected),
             "warnings": sum(1 for p in self.problems if p.severity == "warning"),
             "conflicts": conflicts,
             "cautions": cautions,
             "panels_with_conflicts": with_conflicts,
             "panels_clear": clear,
+            "panels_not_assessed": not_assessed,
         }

@@ -1,82 +1,90 @@
-"""Remedies: the retensioning, or the support spacing, that clears a panel of an excitation.
+"""One remedy per panel: the tension that clears all its conflicts, else the fewest bays.
 
-The remedy for a (panel, excitation) pair is found on the full model (``modes_of``: any
-callable from a ``Panel`` to its modes, with air loading, bending stiffness, cavities...), never
-by assuming that natural frequencies scale as √T:
+For a panel with findings the remedy is, in this order of preference:
 
-1. Both tensions are scaled together by a factor ``s`` (an orthotropic panel keeps its
-   warp/weft ratio). The allowed range is from ``ruleset.min_tension_factor`` × scheduled up to
-   the panel's rated ``max_tension`` (on the larger of its two tensions); a panel with no
-   rated maximum gets a ceiling of ``ruleset.max_tension_factor`` × scheduled (1.5 in the
-   bundled rule sets), and the text says the ceiling was assumed.
-2. The *excess* ``g(s) = max over modes of (margin − |separation|)`` is positive while any
-   mode makes a finding (a conflict or a caution) with the excitation and negative once all
-   are clear; the margin is the caution margin (widened by η/2 when the rule set says so),
-   or the conflict margin for a mode below the participation threshold against an airborne
-   excitation, exactly as ``auditor.rules.evaluate_panel`` judges the pair.
-   ``g`` is scanned on a geometric grid of ``s`` (steps of about 3 %, about 1.5 % in
-   frequency), upwards from the scheduled tension first; each grid tension is rounded to three
-   significant figures (a tension an installer can set), the ends of the range excepted. The
-   boundary of the clear set is refined with ``scipy.optimize.brentq`` on ``g`` between the
-   last unclear and the first clear grid point, and the root is rounded to three significant
-   figures away from the boundary and checked again on the model.
-   To save solves, a grid scale is first screened with an estimate of the modes (each mode's
-   f² interpolated linearly in ``s`` between the full-model solutions at the scheduled tension
-   and at the end of the range, see ``TensionScan.predicted_excess``); the full model is
-   solved where the estimate is within ``SCREEN_BAND`` (``SCREEN_BAND_SCALING`` for an
-   open-sided membrane) of clear, and only full-model values decide.
-3. An increase is preferred (a tauter panel is less prone to sag and flutter); a decrease is
-   offered when only a decrease works, and the text says so.
-4. Among the clear tensions, one that brings no *new* conflict with the panel's other
-   excitations (one that is not already there at the scheduled tension) is preferred even if
-   it means a decrease; when none exists the first clear tension is given and the text names
-   the new conflict.
-5. When no tension in range clears the pair, a rectangle is split into k = 2 … ``max_bays``
-   equal bays by intermediate supports across its longer side (each bay a smaller panel of the
-   same construction at the scheduled tension); the smallest k that clears it is given.
+1. **A tension** within the rated range (both tensions scaled together by a factor ``s``, so an
+   orthotropic panel keeps its warp/weft ratio) at which the panel has no conflict with any
+   tone reaching it and the fewest, then the weakest, cautions. The range runs from
+   ``ruleset.min_tension_factor`` × scheduled up to the rated ``max_tension`` (on the larger
+   tension), or ``ruleset.max_tension_factor`` × scheduled when no rating is given (the text
+   says the ceiling was assumed). Every *clear window* (range of tension with no conflict) is
+   reported.
+2. **The fewest equal bays** (intermediate supports across the longer side, each bay a smaller
+   panel of the same construction at the scheduled tension) that leave no conflict, up to
+   ``ruleset.max_bays``, when no tension clears the panel.
+3. Otherwise **a plain statement** of which tone blocks every option.
 
-Clear windows narrower than the 3 % grid step can be missed, and so can one the screen's
-estimate passes over (a loss factor that changes fast with tension near a cavity coupling):
-the remedy then errs toward a larger change or "cannot be cleared by tension"; every tension
-proposed has been checked on the model.
+A panel with cautions but no conflict is left as scheduled: its remedy says so and names the
+worst caution (no search, no windows); cautions are the consultant's to weigh.
+
+How the windows are found. Each mode follows its frequency with tension, ``f_k(s)``; the pair
+it makes with a tone is a conflict, a caution or nothing as ``f_k`` sweeps past the tone, and
+the set of ``f`` where it is a conflict (or a finding at all) is an interval: the margin
+window around the tone intersected with the range where its response reaches the rule set's
+threshold (``auditor.judgement.screening``; the response ``20·log10(p·|H|·T)`` falls
+monotonically away from resonance, so solving ``|H| = 10^(X/20)/(p·T)`` for ρ gives its edges
+in closed form). Mapping these intervals through ``f_k(s)`` gives the blocked tensions.
+
+- A **pure membrane** (no air on either side, no bending stiffness; any outline) scales
+  exactly, ``f_k(s) = f_k(1)·√s`` with loss factor and participation unchanged, so the windows
+  follow in closed form from the modes at two tensions (the scheduled one, and the lowest in
+  range for the modes that come down into the assessed band).
+- **Otherwise** (air loading, a cavity, bending, porosity) the full model is solved at the
+  ends of the range as well as at the scheduled tension, and each mode's ``f²`` is interpolated
+  linearly in ``s`` between them, matched by label (ω² is a Rayleigh quotient linear in the
+  tension stiffness, so this is second-order accurate; exact for a prestressed plate); a mode
+  not matched goes as ``f² ∝ s``. Participation and loss factor take their least favourable
+  values along the mode (the windows err narrow).
+
+The proposed tension is placed inside its window (at least ``INSET`` from the window's edges
+where it is wide enough, else in its middle), rounded to three significant figures (a
+tension an installer can set), and **verified**: the full model is solved again at that
+tension and judged exactly as the audit judges; a failure adds that solution to the grid
+and the search runs again (``VERIFY_ATTEMPTS`` times).
 
 Changing the tension of a stretched system changes the energy stored in it: every remedy that
-is work on the panel carries ``SAFETY_NOTE`` (retensioning is for trained installers, within
-the system maker's rating and local codes).
+is work on the panel (``Remedy.work``) goes with ``SAFETY_NOTE``.
+
+References
+----------
+.. [1] Harris' Shock and Vibration Handbook, 5th ed., ch. 2 (hysteretic amplification).
+.. [2] L. E. Kinsler, A. R. Frey, A. B. Coppens and J. V. Sanders, *Fundamentals of
+   Acoustics*, 4th ed., Wiley, 2000, ch. 4 (membrane frequencies ∝ √T).
 """
 
 from __future__ import annotations
 
 import math
-from collections import Counter
-from collections.abc import Callable, Iterator, Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass, replace
+from typing import Any
 
 import numpy as np
-from scipy.optimize import brentq
 
-from auditor.model import Excitation, Mode, Panel, Remedy
-from auditor.rules import SEPARATION_TOLERANCE, RuleSet, _build_mode_arrays, _pairs, _widening
+from auditor.judgement.screening import (
+    CAUTION, CONFLICT, ExcitationArrays, ModeArrays, PairGrades, default_loss_factor,
+    judge_pairs,
+)
+from auditor.judgement.tuning import (
+    ModeTracks, blocked_intervals, caution_regions, complement, mode_tracks, modes_at, union,
+)
+from auditor.judgement.verdict import overlap_frequency_hz
+from auditor.model import Excitation, Panel, Remedy
+from auditor.rules import RuleSet
 
-__all__ = ["TensionScan", "remedy_for", "remedy_advice", "excitation_excess", "bay_panel",
-           "SAFETY_NOTE"]
+__all__ = ["panel_remedy", "remedy_advice", "bay_panel", "scales_exactly", "SAFETY_NOTE"]
 
-ModesOf = Callable[[Panel], Sequence[Mode]]
+#: The full model: a panel → its modes (a ``PanelModes``, or a sequence of ``Mode``).
+ModesOf = Callable[[Panel], Any]
 
-#: Step of the tension-scale grid (ratio between neighbouring scales).
-SCALE_STEP = 1.03
+#: How far inside a window's edges a proposed tension is placed, as a ratio of tensions.
+INSET = 1.05
 
-#: Grid scales whose estimated excess (``TensionScan.predicted_excess``) is above this, in
-#: separation, are taken as unclear without solving the full model there.
-SCREEN_BAND = 0.04
+#: Solves at a proposed tension before the search gives up on tension.
+VERIFY_ATTEMPTS = 3
 
-#: The same for a membrane with open sides (no sealed cavity, bending or porous sheet),
-#: whose frequencies scale exactly as √T but for the small compressible terms: the estimate
-#: was within 0.0011 of the model at every scale solved in the 20,000-panel benchmark.
-SCREEN_BAND_SCALING = 0.01
-
-#: Goes with every remedy that changes a tension or adds supports (``Remedy.work``): the
-#: tables append it (:func:`remedy_advice`), the PDF and the JSON document carry it once.
+#: Goes with every remedy that changes a tension or adds supports: the tables append it
+#: (:func:`remedy_advice`), the PDF and the JSON document carry it once.
 SAFETY_NOTE = ("Retensioning and added supports are work for trained installers, within the "
                "system maker's rating, local codes and licensed practice.")
 
@@ -86,49 +94,6 @@ def remedy_advice(remedy: Remedy | None) -> str:
     if remedy is None:
         return ""
     return f"{remedy.text} {SAFETY_NOTE}" if remedy.work else remedy.text
-
-
-def excitation_excess(f: np.ndarray, eta: np.ndarray, excitation: Excitation,
-                      ruleset: RuleSet, participation: np.ndarray | None = None) -> float:
-    """How far the worst mode sits inside the margin that makes a finding with one excitation.
-
-    Parameters
-    ----------
-    f : ndarray  [Hz]
-        Natural frequencies.
-    eta : ndarray  [-]
-        Loss factors (NaN where unknown).
-    excitation : Excitation
-    ruleset : RuleSet
-    participation : ndarray, optional  [-]
-        Uniform-pressure participation factors; with an airborne excitation, a mode below the
-        rule set's threshold makes a finding only inside the conflict margin (as in
-        ``auditor.rules.evaluate_panel``). Without it every mode is held to the caution margin.
-
-    Returns
-    -------
-    float  [-]
-        ``max(margin − |separation|)`` over modes, the margin widened by η/2 when the rule set
-        says so: ≥ 0 when some mode makes a conflict or caution, < 0 when all are clear
-        (−inf with no modes).
-    """
-    if len(f) == 0:
-        return -math.inf
-    return float(_excess(np.asarray(f, float), eta, excitation, ruleset, participation))
-
-
-def _excess(f: np.ndarray, eta: np.ndarray, excitation: Excitation, ruleset: RuleSet,
-            participation: np.ndarray | None) -> np.ndarray:
-    """:func:`excitation_excess` of each row of ``f`` (..., modes)  [-]."""
-    lo, hi = excitation.low_hz, excitation.high_hz
-    sep = np.where(f < lo, (f - lo) / lo, np.where(f > hi, (f - hi) / hi, 0.0))
-    margin = ruleset.caution_margin + _widening(eta, ruleset) + SEPARATION_TOLERANCE
-    if participation is not None:
-        threshold = (ruleset.participation_threshold if excitation.airborne
-                     else ruleset.support_participation_threshold)
-        margin = margin - np.where(participation < threshold,
-                                   ruleset.caution_margin - ruleset.conflict_margin, 0.0)
-    return np.max(margin - np.abs(sep), axis=-1)
 
 
 def bay_panel(panel: Panel, bays: int) -> Panel | None:
@@ -144,378 +109,322 @@ def bay_panel(panel: Panel, bays: int) -> Panel | None:
     return replace(panel, length=panel.length / bays, cutouts=())
 
 
-@dataclass
+def scales_exactly(panel: Panel) -> bool:
+    """True when every natural frequency scales exactly as √T: no air on either side and no
+    bending stiffness (the membrane operator is then T times a fixed one)."""
+    return (panel.room_side == "none" and panel.plenum_side == "none"
+            and not panel.bending_stiffness)
+
+
+# ---------------------------------------------------------------------------------------
+# Solutions of the full model at given tensions
+# ---------------------------------------------------------------------------------------
+
+@dataclass(frozen=True, eq=False)
 class _State:
-    f: np.ndarray
-    participation: np.ndarray
-    eta: np.ndarray
-    labels: tuple[str, ...] = ()
+    """The full model at one tension scale."""
+
+    scale: float
+    modes: ModeArrays
+    labels: tuple[str, ...]
+    complete_to_hz: float
+    overlap_from_hz: float
 
 
-class TensionScan:
-    """A panel's modes over a range of tension scales, computed on demand and kept.
+class _Solver:
+    """Solves the panel at tension scales (and bays) and judges them as the audit does."""
 
-    Shared by every excitation of one panel so the full model is solved once per scale.
+    def __init__(self, panel: Panel, excitations: ExcitationArrays, ruleset: RuleSet,
+                 modes_of: ModesOf, limit_hz: float):
+        self.panel, self.excitations, self.ruleset = panel, excitations, ruleset
+        self.modes_of, self.limit_hz = modes_of, limit_hz
+        self.eta0 = default_loss_factor(panel)
+        self.states: dict[float, _State] = {}
 
-    Parameters
-    ----------
-    panel : Panel
-    modes_of : callable (Panel) -> sequence of Mode
-    ruleset : RuleSet
-    """
-
-    def __init__(self, panel: Panel, modes_of: ModesOf, ruleset: RuleSet):
-        self.panel = panel
-        self.modes_of = modes_of
-        self.ruleset = ruleset
-        self._states: dict[float, _State] = {}
-        self._bays: dict[int, _State | None] = {}
-        self._estimates: dict[float, tuple] = {}   # interpolants of the modes, by end of range
-        top = max(panel.tension_x, panel.tension_y)
-        self.assumed_ceiling = panel.max_tension is None
-        if panel.max_tension is not None and top > 0:
-            self.highest = panel.max_tension / top
-        else:
-            self.highest = ruleset.max_tension_factor
-        self.lowest = min(ruleset.min_tension_factor, self.highest)
-        self.up = self._grid(1.0, self.highest) if self.highest > 1 else np.array([1.0])
-        self.down = self._grid(min(1.0, self.highest), self.lowest)
-
-    def _grid(self, start: float, stop: float) -> np.ndarray:
-        """Scales from ``start`` to ``stop`` in steps of about ``SCALE_STEP``, the interior
-        ones moved to the nearest tension of three significant figures."""
-        if stop == start:
-            return np.array([start])
-        steps = max(2, math.ceil(abs(math.log(stop / start)) / math.log(SCALE_STEP)) + 1)
-        raw = np.geomspace(start, stop, steps)
-        tx = self.panel.tension_x
-        scales = [float(start)]
-        for s in raw[1:-1]:
-            r = float(f"{s * tx:.3g}") / tx if tx > 0 else float(s)
-            if (r - scales[-1]) * (stop - start) > 0 and (stop - r) * (stop - start) > 0:
-                scales.append(r)
-        scales.append(float(stop))
-        return np.array(scales)
-
-    def tensions(self, scale: float) -> tuple[float, float]:
-        """(tension_x, tension_y) at ``scale``  [N/m]."""
-        return self.panel.tension_x * scale, self.panel.tension_y * scale
-
-    def state(self, scale: float) -> _State:
-        key = float(scale)
-        got = self._states.get(key)
-        if got is None:
-            tx, ty = self.tensions(key)
-            modes, f, p, eta = _build_mode_arrays(self.modes_of(replace(self.panel, tension_x=tx,
-                                                                  tension_y=ty)))
-            got = self._states[key] = _State(f, p, eta, tuple(m.label for m in modes))
-        return got
-
-    def bay_state(self, bays: int) -> _State | None:
-        if bays not in self._bays:
-            sub = bay_panel(self.panel, bays)
-            if sub is None:
-                self._bays[bays] = None
-            else:
-                _, f, p, eta = _build_mode_arrays(self.modes_of(sub))
-                self._bays[bays] = _State(f, p, eta)
-        return self._bays[bays]
-
-    def excess(self, scale: float, excitation: Excitation) -> float:
-        s = self.state(scale)
-        return excitation_excess(s.f, s.eta, excitation, self.ruleset, s.participation)
-
-    @property
-    def screen_band(self) -> float:
-        """How far above clear, in separation, an estimate may be and the full model still
-        be solved there (see :meth:`predicted_excess`)."""
+    def candidate(self, scale: float) -> Panel:
         p = self.panel
-        scales_exactly = (p.plenum_side != "sealed" and not p.bending_stiffness
-                          and p.airflow_resistance is None)
-        return SCREEN_BAND_SCALING if scales_exactly else SCREEN_BAND
+        return replace(p, tension_x=p.tension_x * scale, tension_y=p.tension_y * scale)
 
-    def predicted_excess(self, scales: np.ndarray, excitation: Excitation) -> np.ndarray:
-        """A cheap estimate of the excess at each of ``scales`` (all on one side of 1), used
-        only to decide where the full model is worth solving.
+    def solve(self, panel: Panel, scale: float) -> _State:
+        """``panel`` (this one at ``scale``, or a bay of it) on the full model."""
+        return self._state_of(self.modes_of(panel), panel, scale)
 
-        A mode's ω² is its Rayleigh quotient ``(s·k_T + k_0)/m``: the tension stiffness
-        scales with ``s``, the rest (a sealed cavity's air spring, bending) does not, and the
-        quotient is stationary in the shape, so to second order in the change of shape ω² is
-        linear in ``s`` (and exactly ∝ s for a membrane with open sides, but for the small
-        compressible terms). Each mode's f², loss factor and participation are therefore
-        interpolated linearly in ``s`` between their full-model values at the scheduled
-        tension and at the end of the range on that side (modes matched by label, where the
-        label is unique at both); a mode not matched goes as f² ∝ s from where it was found.
-        Participation is not interpolated: each mode takes the lesser of its two values,
-        which errs toward solving (a pair below the participation threshold is judged by the
-        narrower conflict margin).
-        """
-        scales = np.asarray(scales, float)
-        end = self.highest if np.all(scales >= 1.0) else self.lowest
-        laws = self._estimates.get(end)
-        if laws is None:
-            laws = self._estimates[end] = self._interpolants(end)
-        value, slope, proportional = laws
-        if value.shape[1] == 0:
-            return np.full(len(scales), -math.inf)
-        t = scales[:, None] - 1.0
-        f2 = np.where(proportional, value[0] * scales[:, None], value[0] + slope[0] * t)
-        return _excess(np.sqrt(np.maximum(f2, 0.0)), value[1] + slope[1] * t, excitation,
-                       self.ruleset, value[2] + slope[2] * t)
+    def state(self, scale: float, given: Any = None) -> _State:
+        """The panel at ``scale``, solved once (``given``: its modes, already solved)."""
+        key = float(scale)
+        if key not in self.states:
+            panel = self.candidate(key)
+            solved = given if given is not None else self.modes_of(panel)
+            self.states[key] = self._state_of(solved, panel, key)
+        return self.states[key]
 
-    def _interpolants(self, end: float):
-        """For :meth:`predicted_excess`, per mode found at the scheduled tension or at
-        ``end``: (f² [Hz²], η, participation) at s = 1 and their slopes in s, (3, modes) each,
-        and whether f² is taken ∝ s instead (then the first row is f² per unit s)."""
-        base = self.state(1.0)
-        far = self.state(end) if end != 1.0 else base
-        value = np.vstack([base.f**2, base.eta, base.participation])
-        slope = np.zeros_like(value)
-        proportional = np.ones(len(base.f), dtype=bool)
-        matched: set[int] = set()
-        if end != 1.0:
-            at_base, at_far = Counter(base.labels), Counter(far.labels)
-            unique_far = {label: k for k, label in enumerate(far.labels) if at_far[label] == 1}
-            for i, label in enumerate(base.labels):
-                k = unique_far.get(label)
-                if k is None or at_base[label] != 1:
-                    continue
-                slope[:2, i] = (np.array([far.f[k] ** 2, far.eta[k]]) - value[:2, i]) / (end - 1.0)
-                # Participation can change fast near a coupling with the air (a cavity): the
-                # lesser value is taken throughout, the one that demotes airborne pairs.
-                value[2, i] = min(value[2, i], far.participation[k])
-                proportional[i] = False
-                matched.add(k)
-        slope[1] = np.nan_to_num(slope[1])   # an unknown loss factor stays unknown
-        rest = [k for k in range(len(far.f)) if end != 1.0 and k not in matched]
-        extra = np.vstack([far.f[rest] ** 2 / end, far.eta[rest], far.participation[rest]])
-        return (np.hstack([value, extra]), np.hstack([slope, np.zeros_like(extra)]),
-                np.concatenate([proportional, np.ones(len(rest), dtype=bool)]))
+    def _state_of(self, solved: Any, panel: Panel, scale: float) -> _State:
+        # ``solved`` is a PanelModes (with ``complete_to_hz``) or a plain sequence of Mode
+        # (a model complete to the limit, as the reference models of the tests are).
+        arrays = ModeArrays.of(tuple(getattr(solved, "modes", solved)), self.eta0)
+        overlap = overlap_frequency_hz(panel, arrays)
+        return _State(scale, arrays, tuple(m.label for m in arrays.modes),
+                      float(getattr(solved, "complete_to_hz", math.inf)),
+                      overlap if overlap is not None else math.inf)
+
+    def judge(self, state: _State) -> PairGrades:
+        return judge_pairs(state.modes, self.excitations, self.ruleset,
+                           limit_hz=min(self.limit_hz, state.complete_to_hz),
+                           overlap_from_hz=state.overlap_from_hz)
 
 
-def _conflicting(state: _State, others: Sequence[Excitation], ruleset: RuleSet) -> set[int]:
-    """Indices of ``others`` with at least one conflict against ``state``'s modes."""
-    if not others or len(state.f) == 0:
-        return set()
-    low = np.array([e.low_hz for e in others])
-    high = np.array([e.high_hz for e in others])
-    airborne = np.array([e.airborne for e in others], dtype=bool)
-    _, exc, _, conflict, _ = _pairs(state.f, state.participation, state.eta, low, high,
-                                    airborne, ruleset)
-    return set(exc[conflict].tolist())
+# ---------------------------------------------------------------------------------------
+# The proposal and its verification
+# ---------------------------------------------------------------------------------------
+
+def _placed(low: float, high: float) -> float:
+    """The scale in [low, high] nearest the scheduled one (1), at least ``INSET`` inside the
+    edges when the region is wide enough, else its geometric middle."""
+    inner_low, inner_high = low * INSET, high / INSET
+    if inner_low > inner_high:
+        return math.sqrt(low * high)
+    return min(max(1.0, inner_low), inner_high)
 
 
-def _round_away(tension: float, direction: int) -> float:
-    """Round to three significant figures, up (direction +1) or down (−1)."""
+def _snapped(tension: float) -> float:
+    """A tension that is three significant figures but for rounding error, made exact."""
+    three = float(f"{tension:.3g}")
+    return three if abs(three - tension) <= 1e-9 * abs(tension) else tension
+
+
+def _installable(scale: float, tension: float, low: float, high: float) -> float:
+    """``scale`` moved to a tension of three significant figures, if it stays in range."""
     if tension <= 0:
-        return tension
-    step = 10.0 ** (math.floor(math.log10(tension)) - 2)
-    q = tension / step
-    q = math.ceil(q - 1e-9) if direction > 0 else math.floor(q + 1e-9)
-    return q * step
+        return scale
+    rounded = float(f"{scale * tension:.3g}") / tension
+    return rounded if low <= rounded <= high else scale
 
 
-def _refine(scan: TensionScan, excitation: Excitation, unclear: float, clear: float,
-            direction: int) -> float:
-    """A clear scale just past the boundary between ``unclear`` and ``clear`` (practical
-    rounding when it stays clear and in range)."""
-    def g(s: float) -> float:
-        return scan.excess(s, excitation)
-
-    g_unclear = g(unclear)
-    if g_unclear < 0:  # screened as unclear, but the model says clear: the boundary is nearer
-        return unclear
-    # 1e-3 of the tension is finer than any installer sets it (the result is rounded to three
-    # significant figures away from the boundary and checked again on the model).
-    root = unclear if g_unclear == 0 else brentq(g, unclear, clear, xtol=1e-3 * clear,
-                                                  rtol=1e-6)
-    lo, hi = min(scan.lowest, scan.highest), scan.highest
-    past = root * (1 + direction * 4e-4)
-    tx = scan.panel.tension_x
-    rounded = _round_away(past * tx, direction) / tx if tx > 0 else past
-    for s in (rounded, past):
-        if lo * (1 - 1e-12) <= s <= hi * (1 + 1e-12) and g(s) < 0:
-            return s
-    return clear
+def _ranked_candidates(solver: _Solver, tracks: ModeTracks,
+                       regions: list[tuple[float, float, int]]) -> list[float]:
+    """A placed, installable tension for each region, best first: fewest cautions, then the
+    weakest (their summed response on the followed modes), then the smallest change."""
+    if not regions:
+        return []
+    fewest = min(r[2] for r in regions)
+    scored = []
+    for a, b, count in regions:
+        s = _installable(_placed(a, b), solver.panel.tension_x, a, b)
+        strength = math.inf
+        if count == fewest:
+            strength = judge_pairs(modes_at(tracks, s, solver.eta0), solver.excitations,
+                                   solver.ruleset, limit_hz=tracks.limit_hz,
+                                   overlap_from_hz=tracks.overlap_hz * math.sqrt(s)
+                                   ).caution_strength()
+        scored.append((count, strength, abs(math.log(s)), s))
+    return [s for *_, s in sorted(scored)]
 
 
-def _candidates(scan: TensionScan, excitation: Excitation, grid: np.ndarray,
-                direction: int) -> Iterator[float]:
-    """Clear scales along ``grid`` (from the scheduled tension outwards): the entry into each
-    clear stretch first, then the stretch's own grid points."""
-    previous = float(grid[0])
-    was_clear = scan.excess(previous, excitation) < 0
-    if was_clear:  # only when the scheduled tension is above the rated maximum
-        yield previous
-    estimate = scan.predicted_excess(grid[1:], excitation)
-    for s, estimated in zip(grid[1:], estimate):
-        s = float(s)
-        # The full model is solved only where the estimate says the pair is clear or nearly
-        # so (the screen band, in separation): every scale proposed is judged on the model.
-        if estimated > scan.screen_band:
-            clear = False
-        else:
-            clear = scan.excess(s, excitation) < 0
-        if clear and not was_clear:
-            yield _refine(scan, excitation, previous, s, direction)
-        if clear:
-            yield s
-        was_clear, previous = clear, s
+@dataclass
+class _Search:
+    windows: list[tuple[float, float]]
+    chosen: float | None
+    verified: PairGrades | None
+    conflicts_by_tone: dict[int, list[tuple[float, float]]]
 
 
-def _fmt_tension(t: float) -> str:
+def _search(solver: _Solver, low: float, high: float, exact: bool) -> _Search:
+    """Windows from the modes followed over tension, the best placed tension, verified."""
+    if exact:
+        for s in sorted({1.0, low}):
+            solver.state(s)
+    else:
+        for s in sorted({low, 1.0, high}):
+            solver.state(s)
+    tried: set[float] = set()
+    search = _Search([], None, None, {})
+    for _ in range(VERIFY_ATTEMPTS):
+        states = list(solver.states.values())
+        limit = min([solver.limit_hz] + [st.complete_to_hz for st in states])
+        tracks = mode_tracks(states, low, high, limit)
+        (c_lo, c_hi), (f_lo, f_hi), tone = blocked_intervals(tracks, solver.excitations,
+                                                              solver.ruleset)
+        windows = complement(union(c_lo, c_hi), low, high)
+        search.windows = windows
+        search.conflicts_by_tone = {
+            int(t): union(c_lo[tone == t], c_hi[tone == t]) for t in np.unique(tone)}
+        candidate = None
+        for s in _ranked_candidates(solver, tracks, caution_regions(windows, f_lo, f_hi)):
+            if s not in tried:
+                candidate = s
+                break
+        if candidate is None:
+            return search
+        tried.add(candidate)
+        grades = solver.judge(solver.state(candidate))
+        if grades.conflicts == 0:
+            search.chosen, search.verified = candidate, grades
+            return search
+    return search
+
+
+# ---------------------------------------------------------------------------------------
+# The remedy in words
+# ---------------------------------------------------------------------------------------
+
+def _t(t: float) -> str:
     return f"{t:.0f}" if t >= 100 else f"{t:.3g}"
 
 
-def _pair_text(panel: Panel, tx: float, ty: float) -> str:
-    if panel.isotropic:
-        return _fmt_tension(tx)
-    return f"{_fmt_tension(tx)} × {_fmt_tension(ty)}"
+def _naming(e: Excitation) -> str:
+    rest = e.description[len(e.kind) + 1:] if e.description.startswith(e.kind + " ") \
+        else e.description
+    return f"{e.kind} {e.equipment} {rest}"
 
 
-def _naming(excitation: Excitation) -> str:
-    """e.g. "fan AHU-2 blade-pass ×1"."""
-    rest = excitation.description
-    if rest.startswith(excitation.kind + " "):
-        rest = rest[len(excitation.kind) + 1:]
-    return f"{excitation.kind} {excitation.equipment} {rest}"
+def _tensions(panel: Panel, scale: float) -> str:
+    tx, ty = panel.tension_x * scale, panel.tension_y * scale
+    return _t(tx) if panel.isotropic else f"{_t(tx)} × {_t(ty)}"
 
 
-#: A remedy text names at most this many of the new conflicts it brings (the re-audit of the
-#: remedied schedule lists them all).
-NAMED_CONFLICTS = 3
+def _windows_text(windows: Sequence[tuple[float, float]]) -> str:
+    if not windows:
+        return "none"
+    return ", ".join(f"{_t(a)}–{_t(b)}" for a, b in windows) + " N/m"
 
 
-def _listing(excitations: Sequence[Excitation]) -> str:
-    """e.g. "fan F1 shaft ×1, pump P2 vane-pass ×1, motor M3 2× line and 4 more"."""
-    names = ", ".join(_naming(e) for e in excitations[:NAMED_CONFLICTS])
-    rest = len(excitations) - NAMED_CONFLICTS
-    return f"{names} and {rest} more" if rest > 0 else names
+def _blockers(search: _Search, excitations: ExcitationArrays, low: float,
+              high: float) -> str:
+    """Which tones block every tension in range, in words."""
+    whole = [t for t, spans in search.conflicts_by_tone.items()
+             if complement(spans, low, high) == []]
+    if whole:
+        names = ", ".join(_naming(excitations.excitations[t]) for t in whole[:3])
+        more = f" and {len(whole) - 3} more" if len(whole) > 3 else ""
+        return f"{names}{more} conflict{'s' if len(whole) == 1 else ''} at every tension in range"
+    tones = sorted(search.conflicts_by_tone, key=lambda t: -sum(
+        b - a for a, b in search.conflicts_by_tone[t]))
+    names = ", ".join(_naming(excitations.excitations[t]) for t in tones[:3])
+    more = f" and {len(tones) - 3} more" if len(tones) > 3 else ""
+    return f"every tension in range conflicts with at least one of {names}{more}"
 
 
-def _margin_text(ruleset: RuleSet) -> str:
-    return f"by ≥{ruleset.caution_margin * 100:.0f} %"
+def _caution_text(grades: PairGrades, state: _State, excitations: ExcitationArrays) -> str:
+    n = grades.cautions
+    if n == 0:
+        return "no caution remains"
+    k = int(np.flatnonzero(grades.grade == CAUTION)[0])
+    e = excitations.excitations[int(grades.excitation[k])]
+    f = float(state.modes.frequency[int(grades.mode[k])])
+    return (f"{n} caution{'s' if n != 1 else ''} remain{'s' if n == 1 else ''} (worst: "
+            f"{_naming(e)} near a mode at {f:.3g} Hz, {float(grades.response_db[k]):+.0f} dB)")
 
 
-def remedy_for(panel: Panel, excitation: Excitation, modes_of: ModesOf, ruleset: RuleSet, *,
-               other_excitations: Sequence[Excitation] = (),
-               scan: TensionScan | None = None) -> Remedy:
-    """The tension (or the support spacing) that clears ``panel`` of ``excitation``.
+def panel_remedy(panel: Panel, excitations: Sequence[Excitation] | ExcitationArrays,
+                 ruleset: RuleSet, modes_of: ModesOf, *, limit_hz: float,
+                 solved: Any = None, beyond_hz: float | None = None) -> Remedy:
+    """The one remedy for a panel with findings (see the module docstring).
 
     Parameters
     ----------
     panel : Panel
-    excitation : Excitation
-    modes_of : callable (Panel) -> sequence of Mode
-        The full model: modes of a panel with any tension or size.
+    excitations : sequence of Excitation, or ExcitationArrays
+        Every excitation reaching the panel.
     ruleset : RuleSet
-        Margins (the caution margin, widened by η/2 when set, must be cleared), remedy range
-        (``min_tension_factor``, ``max_tension_factor`` when the panel has no ``max_tension``,
-        ``max_bays``).
-    other_excitations : sequence of Excitation
-        The panel's other excitations: a remedy that brings no new conflict with them is
-        preferred.
-    scan : TensionScan, optional
-        Shared modes over tension scales (``findings_with_remedies`` passes one per panel).
+        Margins, response thresholds and the remedy range (``min_tension_factor``,
+        ``max_tension_factor`` when the panel has no ``max_tension``, ``max_bays``).
+    modes_of : callable (Panel) -> PanelModes or sequence of Mode
+        The full model (air loading, cavity, bending) of a panel at any tension or size,
+        solved up to ``limit_hz``.
+    limit_hz : float  [Hz]
+        The assessment limit of the panel.
+    solved : PanelModes or sequence of Mode, optional
+        The panel's modes at the scheduled tension, when already solved.
+    beyond_hz : float, optional  [Hz]
+        Set when tones reach the panel above its assessed range (the text says the remedy
+        is judged up to that frequency).
 
     Returns
     -------
     Remedy
-        ``tension``/``tension_y`` [N/m] the new tensions (the scheduled ones when already
-        clear), or ``bays`` the number of equal bays, or neither; ``text`` in words.
-
-    References
-    ----------
-    .. [1] R. P. Brent, *Algorithms for Minimization without Derivatives*, Prentice-Hall,
-       1973, ch. 4 (the root finder, ``scipy.optimize.brentq``).
     """
-    scan = scan or TensionScan(panel, modes_of, ruleset)
-    what = _naming(excitation)
-    margin = _margin_text(ruleset)
-    t0x, t0y = panel.tension_x, panel.tension_y
-    if t0x <= 0 or t0y <= 0:
-        return Remedy(tension=None, bays=None,
-                      text=f"No tension is scheduled for panel {panel.panel}; "
-                           f"it cannot be retuned to clear {what}.")
-    if scan.excess(1.0, excitation) < 0:
-        return Remedy(tension=t0x, bays=None, tension_y=t0y,
-                      text=f"No change needed: clear of {what} {margin} at the scheduled "
-                           f"tension.")
-    others = [e for e in other_excitations if e != excitation]
-    baseline = _conflicting(scan.state(1.0), others, ruleset)
-
-    def new_conflicts(state) -> set[int]:
-        return _conflicting(state, others, ruleset) - baseline
-
-    top_t = max(t0x, t0y) * scan.highest
-    if scan.assumed_ceiling:
-        ceiling = (f"no rated maximum in the schedule; ceiling taken as "
-                   f"{ruleset.max_tension_factor:g} × scheduled = {_fmt_tension(top_t)} N/m")
+    excs = ExcitationArrays.of(excitations)
+    solver = _Solver(panel, excs, ruleset, modes_of, limit_hz)
+    base = solver.state(1.0, given=solved)
+    now = solver.judge(base)
+    tail = (f" Tones above {beyond_hz:.0f} Hz were not assessed; this remedy is judged up to "
+            f"{beyond_hz:.0f} Hz." if beyond_hz is not None else "")
+    tx, ty = panel.tension_x, panel.tension_y
+    if now.conflicts == 0:
+        return Remedy(tension=tx, tension_y=ty, bays=None, verified=True, cautions=now.cautions,
+                      text=(f"No change needed: no conflict at the scheduled tension"
+                            f"{'' if panel.isotropic else 's'}; {_caution_text(now, base, excs)}."
+                            f"{tail}"))
+    if tx <= 0 or ty <= 0:
+        return _bays_or_statement(solver, None, panel, tail, now)
+    top = max(tx, ty)
+    rated = panel.max_tension is not None and top > 0
+    high = panel.max_tension / top if rated else ruleset.max_tension_factor
+    low = min(ruleset.min_tension_factor, high)
+    search = _search(solver, low, high, scales_exactly(panel))
+    windows = tuple((a * tx, b * tx) for a, b in search.windows)
+    if rated:
+        ceiling = f"rated maximum {_t(panel.max_tension)} N/m"
     else:
-        ceiling = f"max {_fmt_tension(panel.max_tension)} N/m"
+        ceiling = (f"no rated maximum in the schedule; ceiling taken as "
+                   f"{ruleset.max_tension_factor:g} × scheduled = {_t(top * high)} N/m")
+    if search.chosen is None:
+        return _bays_or_statement(solver, search, panel, tail, now, low=low, high=high,
+                                  windows=windows)
+    s, grades = search.chosen, search.verified
+    state = solver.state(s)
     plural = "" if panel.isotropic else "s"
     ratio = "" if panel.isotropic else " (x × y, ratio kept)"
+    windows_text = f" Clear windows: {_windows_text(windows)}."
+    verb = "Raise" if s > 1 else "Lower"
+    text = (f"{verb} the tension{plural} from {_tensions(panel, 1.0)} to "
+            f"{_tensions(panel, s)} N/m{ratio} ({ceiling}): no conflict, verified on the full "
+            f"model; {_caution_text(grades, state, excs)}.{windows_text}{tail}")
+    if s < 1 and not any(b > 1 for a, b in search.windows):
+        text += " No higher tension in range clears it: check the system maker's minimum tension."
+    return Remedy(tension=_snapped(tx * s), bays=None, tension_y=_snapped(ty * s), text=text,
+                  work=True,
+                  clear_windows=windows, verified=True, cautions=grades.cautions)
 
-    fallback: tuple[float, int, set[int]] | None = None
-    chosen: tuple[float, int, set[int]] | None = None
-    for direction, grid in ((+1, scan.up), (-1, scan.down)):
-        if len(grid) < 2:
-            continue
-        for s in _candidates(scan, excitation, grid, direction):
-            extra = new_conflicts(scan.state(s))
-            if fallback is None:
-                fallback = (s, direction, extra)
-            if not extra:
-                chosen = (s, direction, extra)
-                break
-        if chosen:
-            break
-    pick = chosen or fallback
-    if pick is not None:
-        s, direction, extra = pick
-        tx, ty = scan.tensions(s)
-        before, after = _pair_text(panel, t0x, t0y), _pair_text(panel, tx, ty)
-        if direction > 0:
-            text = (f"Raise tension{plural} from {before} to {after} N/m{ratio} ({ceiling}) "
-                    f"to clear {what} {margin}.")
-        else:
-            text = (f"Lower tension{plural} from {before} to {after} N/m{ratio} to clear {what} "
-                    f"{margin}; no tension up to {_fmt_tension(top_t)} N/m clears it. "
-                    f"Check the system maker's minimum tension.")
-        if extra:
-            names = _listing([others[k] for k in sorted(extra)])
-            text += f" This tension brings a new conflict with {names}; none in range avoids it."
-        return Remedy(tension=tx, bays=None, text=text, tension_y=ty, work=True)
 
-    low_t = min(t0x, t0y) * scan.lowest
-    range_text = f"No tension from {_fmt_tension(low_t)} to {_fmt_tension(top_t)} N/m"
-    first_bays: tuple[int, set[int]] | None = None
-    for k in range(2, ruleset.max_bays + 1):
-        state = scan.bay_state(k)
-        if state is None:
-            break
-        if excitation_excess(state.f, state.eta, excitation, ruleset, state.participation) < 0:
-            extra = new_conflicts(state)
-            if first_bays is None:
-                first_bays = (k, extra)
-            if not extra:
-                first_bays = (k, extra)
-                break
-    if first_bays is not None:
-        k, extra = first_bays
-        longer = max(panel.width or 0.0, panel.length or 0.0)
-        text = (f"{range_text} clears {what}; split the {longer:.2f} m side into {k} equal "
-                f"bays (supports every {longer / k:.2f} m) at the scheduled "
-                f"{_pair_text(panel, t0x, t0y)} N/m to clear it {margin}.")
-        if panel.cutouts:
-            text += " The bays were assessed without the panel's cut-outs."
-        if extra:
-            names = _listing([others[j] for j in sorted(extra)])
-            text += f" This brings a new conflict with {names}."
-        return Remedy(tension=None, bays=k, text=text, work=True)
-    if bay_panel(panel, 2) is None:
-        tail = "support changes for this outline need the panel designer."
+def _bays_or_statement(solver: _Solver, search: _Search | None, panel: Panel, tail: str,
+                       now: PairGrades, *, low: float = 1.0, high: float = 1.0,
+                       windows: tuple = ()) -> Remedy:
+    """The fewest equal bays that clear the conflicts, or what blocks every option."""
+    if search is None:
+        head = "The panel has no scheduled tension to change"
     else:
-        tail = (f"nor does a split into up to {ruleset.max_bays} equal bays; "
-                f"refer to the panel designer.")
-    return Remedy(tension=None, bays=None, text=f"{range_text} clears {what}; {tail}")
+        head = (f"No tension from {_t(min(panel.tension_x, panel.tension_y) * low)} to "
+                f"{_t(max(panel.tension_x, panel.tension_y) * high)} N/m clears its conflicts ("
+                f"{_blockers(search, solver.excitations, low, high)})")
+    last = None
+    for k in range(2, solver.ruleset.max_bays + 1):
+        bay = bay_panel(panel, k)
+        if bay is None:
+            break
+        state = solver.solve(bay, 1.0)
+        grades = solver.judge(state)
+        last = (k, grades)
+        if grades.conflicts == 0:
+            longer = max(panel.width or 0.0, panel.length or 0.0)
+            at = (f" at the scheduled {_tensions(panel, 1.0)} N/m"
+                  if panel.tension_x > 0 and panel.tension_y > 0 else "")
+            text = (f"{head}; split the {longer:.2f} m side into {k} equal bays (supports "
+                    f"every {longer / k:.2f} m){at}: "
+                    f"no conflict, verified on the model; "
+                    f"{_caution_text(grades, state, solver.excitations)}.")
+            if panel.cutouts:
+                text += " The bays were assessed without the panel's cut-outs."
+            return Remedy(tension=None, bays=k, text=text + tail, work=True,
+                          clear_windows=windows, verified=True, cautions=grades.cautions)
+    if last is None:
+        rest = "support changes for this outline need the panel designer."
+    else:
+        k, grades = last
+        tones = sorted({int(e) for e, g in zip(grades.excitation, grades.grade)
+                        if g == CONFLICT})
+        names = ", ".join(_naming(solver.excitations.excitations[t]) for t in tones[:3])
+        rest = (f"nor does a split into up to {k} equal bays ({names} still conflict"
+                f"{'s' if len(tones) == 1 else ''} with {k} bays); refer to the panel designer.")
+    return Remedy(tension=None, bays=None, clear_windows=windows, cautions=now.cautions,
+                  text=f"{head}; {rest}{tail}")

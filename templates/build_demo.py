@@ -2,9 +2,9 @@
 
 The building, the consultancy and the client are made up. The schedule is written the way
 real ones are: a title above the header, units in the headers and in some cells (mm, in, ft,
-g/m², oz/yd², kg/m², N/m, kN/m, lbf/in), every panel shape, material and backing, and two
-deliberately bad rows (a negative width, a misspelt material) so the audit shows rejected
-rows.
+g/m², oz/yd², kg/m², N/m, kN/m, lbf/in), every panel shape, material and backing, the
+equipment's vibration isolators (one small fan left rigid), and two deliberately bad rows (a
+negative width, a misspelt material) so the audit shows rejected rows.
 
 Run ``python templates/build_demo.py``; it rewrites the workbook with the same content every
 time.
@@ -73,22 +73,26 @@ EQUIPMENT_HEADER = (
     "Tag", "Kind", "Zone", "Speed (rpm)", "rpm min", "rpm max", "Blades", "Vanes", "Cylinders",
     "Poles", "Slip", "Line frequency (Hz)", "Frequency (Hz)", "Frequency min (Hz)",
     "Frequency max (Hz)", "Velocity (m/s)", "Wire diameter (mm)", "Pulley diameter (mm)",
-    "Belt length (mm)", "Notes",
+    "Belt length (mm)", "Isolator deflection (mm)", "Isolator damping", "Notes",
 )
+# The mounts a designer would specify (common practice of isolator selection): air-handling
+# fans and the condensing unit on 25 mm open springs, pumps on inertia bases on 25-50 mm
+# springs, the cooling-tower motor with the tower on 50 mm damped springs, the transformer on
+# elastomer pads; the small belt-driven smoke-extract fan is rigidly fixed (blank deflection).
 EQUIPMENT = (
-    ("AHU-1-SF", "fan", "Foyer, Atrium", 1450, None, None, 12, None, None, None, None, None, None, None, None, None, None, None, None, "Supply fan"),
-    ("AHU-1-EF", "fan", "Reading Room", None, 900, 1400, 10, None, None, None, None, None, None, None, None, None, None, None, None, "Extract fan on a variable-speed drive"),
-    ("AHU-2-SF", "fan", "Reading Room", "1740 rpm", None, None, 7, None, None, None, None, None, None, None, None, None, None, None, None, "Plug fan"),
-    ("CHW-P1", "pump", "Plant Screen", 2900, None, None, None, 6, None, None, None, None, None, None, None, None, None, None, None, "Chilled-water pump"),
-    ("LTHW-P1", "pump", "Café", 1450, None, None, None, 7, None, None, None, None, None, None, None, None, None, None, None, "Heating pump below the café"),
-    ("M-CT1", "motor", "Plant Screen", None, None, None, None, None, None, 4, "3 %", None, None, None, None, None, None, None, None, "Cooling-tower fan motor"),
-    ("CMP-1", "compressor", "Plant Screen", 1480, None, None, None, None, 4, None, None, None, None, None, None, None, None, None, None, "Reciprocating condensing unit"),
-    ("TX-1", "transformer", "Café, Foyer", None, None, None, None, None, None, None, None, None, None, None, None, None, None, None, None, "Substation behind the café"),
-    ("BLT-1", "belt", "Atrium", 960, None, None, None, None, None, None, None, None, None, None, None, None, None, 200, 1800, "Belt-driven smoke-extract fan"),
-    ("WIND-1", "flow", "Plant Screen", None, None, None, None, None, None, None, None, None, None, None, None, 15, 2, None, None, "Design wind over the mesh screen"),
-    ("LVR-1", "flow", "Plant Screen", None, None, None, None, None, None, None, None, None, None, None, None, "1200 ft/min", "0.08 in", None, None, "Air through the louvre mesh"),
-    ("ESC-1", "tone", "all", None, None, None, None, None, None, None, None, None, 120, None, None, None, None, None, None, "Escalator drive tone"),
-    ("LIFT-1", "tone", "Atrium", None, None, None, None, None, None, None, None, None, None, 40, 63, None, None, None, None, "Lift drive band"),
+    ("AHU-1-SF", "fan", "Foyer, Atrium", 1450, None, None, 12, None, None, None, None, None, None, None, None, None, None, None, None, 25, None, "Supply fan on 25 mm springs"),
+    ("AHU-1-EF", "fan", "Reading Room", None, 900, 1400, 10, None, None, None, None, None, None, None, None, None, None, None, None, 25, None, "Extract fan on a variable-speed drive, 25 mm springs"),
+    ("AHU-2-SF", "fan", "Reading Room", "1740 rpm", None, None, 7, None, None, None, None, None, None, None, None, None, None, None, None, "1 in", None, "Plug fan on 25 mm springs"),
+    ("CHW-P1", "pump", "Plant Screen", 2900, None, None, None, 6, None, None, None, None, None, None, None, None, None, None, None, 25, None, "Chilled-water pump on an inertia base, 25 mm springs"),
+    ("LTHW-P1", "pump", "Café", 1450, None, None, None, 7, None, None, None, None, None, None, None, None, None, None, None, 40, None, "Heating pump below the café on an inertia base, 40 mm springs"),
+    ("M-CT1", "motor", "Plant Screen", None, None, None, None, None, None, 4, "3 %", None, None, None, None, None, None, None, None, 50, "5 %", "Cooling-tower fan motor; the tower on 50 mm damped springs"),
+    ("CMP-1", "compressor", "Plant Screen", 1480, None, None, None, None, 4, None, None, None, None, None, None, None, None, None, None, 25, None, "Reciprocating condensing unit on 25 mm springs"),
+    ("TX-1", "transformer", "Café, Foyer", None, None, None, None, None, None, None, None, None, None, None, None, None, None, None, None, 6, None, "Substation behind the café, on elastomer pads"),
+    ("BLT-1", "belt", "Atrium", 960, None, None, None, None, None, None, None, None, None, None, None, None, None, 200, 1800, None, None, "Small belt-driven smoke-extract fan, rigidly fixed"),
+    ("WIND-1", "flow", "Plant Screen", None, None, None, None, None, None, None, None, None, None, None, None, 15, 2, None, None, None, None, "Design wind over the mesh screen"),
+    ("LVR-1", "flow", "Plant Screen", None, None, None, None, None, None, None, None, None, None, None, None, "1200 ft/min", "0.08 in", None, None, None, None, "Air through the louvre mesh"),
+    ("ESC-1", "tone", "all", None, None, None, None, None, None, None, None, None, 120, None, None, None, None, None, None, None, None, "Escalator drive tone"),
+    ("LIFT-1", "tone", "Atrium", None, None, None, None, None, None, None, None, None, None, 40, 63, None, None, None, None, None, None, "Lift drive band"),
 )
 # fmt: on
 

@@ -21,3 +21,24 @@ def ideal_membrane_modes(panel: Panel, count: int = 8, loss_factor: float | None
             out.append(Mode(label=f"({m},{n})", frequency_hz=f, participation=p,
                             loss_factor=loss_factor))
     return sorted(out, key=lambda mode: mode.frequency_hz)
+
+
+def ideal_membrane_modes_to(panel: Panel, fmax: float, loss_factor: float | None = None):
+    """Every mode of the ideal rectangular membrane up to ``fmax`` [Hz] (same formula and
+    participation as ``ideal_membrane_modes``, no count of modes)."""
+    out = []
+    cx = math.sqrt(panel.tension_x / panel.areal_density) / panel.width
+    cy = math.sqrt(panel.tension_y / panel.areal_density) / panel.length
+    m = 1
+    while 0.5 * cx * m <= fmax:
+        n = 1
+        while True:
+            f = 0.5 * math.hypot(cx * m, cy * n)
+            if f > fmax:
+                break
+            p = 64 / (math.pi ** 4 * m * m * n * n) if m % 2 and n % 2 else 0.0
+            out.append(Mode(label=f"({m},{n})", frequency_hz=f, participation=p,
+                            loss_factor=loss_factor))
+            n += 1
+        m += 1
+    return sorted(out, key=lambda mode: mode.frequency_hz)

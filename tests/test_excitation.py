@@ -179,3 +179,111 @@ def test_other_missing_data_and_schedule_collection():
     pairs, problems = excitations_for_schedule([good, bad], STANDARD)
     assert [p[0].equipment for p in pairs] == ["F-1"]
     assert [p.record for p in problems] == ["TX-2"]
+
+
+# ----------------------------------------------------------------------------------------
+# Mounts: natural frequency from static deflection, transmissibility, amplifying mounts
+# ----------------------------------------------------------------------------------------
+
+from auditor.excitation import mount_of, mount_warnings  # noqa: E402
+from auditor.judgement.response import (  # noqa: E402
+    ELASTOMER_DAMPING, SPRING_DAMPING, mount_natural_frequency_hz, transmissibility,
+)
+
+
+def test_mount_frequency_from_static_deflection():
+    # f_n = √(g/δ)/2π = 15.76/√δ[mm] Hz (common practice): 25 mm → 3.15 Hz, 6 mm → 6.4 Hz.
+    assert mount_natural_frequency_hz(0.025) == pytest.approx(15.76 / math.sqrt(25), rel=1e-3)
+    assert mount_natural_frequency_hz(0.025) == pytest.approx(3.15, abs=0.01)
+    assert mount_natural_frequency_hz(0.006) == pytest.approx(15.76 / math.sqrt(6), rel=1e-3)
+    with pytest.raises(ValueError):
+        mount_natural_frequency_hz(0.0)
+
+
+def test_transmissibility_of_a_single_degree_of_freedom_mount():
+    # Harris' Shock and Vibration Handbook, vibration isolation chapter: undamped
+    # T = 1/|1 − r²|, so r = 2 → 1/3 and r = 3 → 1/8; every curve crosses T = 1 at r = √2;
+    # at resonance T = √(1 + 4ζ²)/(2ζ) (≈ 1/(2ζ) for light damping).
+    assert transmissibility(2.0, 1.0, 0.0) == pytest.approx(1 / 3)
+    assert transmissibility(3.0, 1.0, 0.0) == pytest.approx(1 / 8)
+    for zeta in (0.0, 0.01, 0.05, 0.3):
+        assert transmissibility(math.sqrt(2), 1.0, zeta) == pytest.approx(1.0)
+    assert transmissibility(1.0, 1.0, 0.05) == pytest.approx(math.sqrt(1 + 0.01) / 0.1)
+    # a rigid path (no mount frequency) passes everything
+    assert transmissibility(24.0, float("nan"), 0.01) == 1.0
+    # The same curve as the base-excitation transfer function (2ζω_n s + ω_n²)/(s² + 2ζω_n s
+    # + ω_n²), evaluated by scipy.signal.freqs (a general reference library).
+    from scipy.signal import freqs
+    fn, zeta = 3.15, 0.05
+    wn = 2 * math.pi * fn
+    f = [1.0, 3.0, 4.4, 10.0, 24.2]
+    _, h = freqs([2 * zeta * wn, wn * wn], [1.0, 2 * zeta * wn, wn * wn],
+                 worN=[2 * math.pi * x for x in f])
+    assert transmissibility(f, fn, zeta) == pytest.approx(abs(h), rel=1e-9)
+
+
+def test_fan_on_springs_passes_a_fiftieth_of_its_shaft_force():
+    # A fan at 1450 rpm (24.2 Hz shaft rate) on 25 mm steel springs: r = 24.2/3.15 = 7.7 and
+    # T ≈ 1/(r² − 1) ≈ 0.018 (Harris; common practice: "about 98 % isolation").
+    fan = item("fan", rpm=1450, blades=12, tag="AHU-1", isolator_deflection=0.025)
+    shaft = by_source(excitations_for(fan, STANDARD), "shaft")
+    r = (1450 / 60) / mount_natural_frequency_hz(0.025)
+    expected = math.sqrt(1 + (2 * SPRING_DAMPING * r) ** 2) / math.sqrt(
+        (1 - r * r) ** 2 + (2 * SPRING_DAMPING * r) ** 2)
+    assert shaft[0].transmissibility == pytest.approx(expected, rel=1e-9)
+    assert 0.015 < shaft[0].transmissibility < 0.025
+    assert shaft[0].mount.kind == "steel spring" and shaft[0].mount.damping_assumed
+    assert shaft[0].path == "structure-borne"
+    # the airborne blade-pass does not go through the mount
+    bpf = by_source(excitations_for(fan, STANDARD), "blade-pass")
+    assert bpf[0].mount is None and bpf[0].transmissibility == 1.0 and bpf[0].path == "airborne"
+
+
+def test_blank_deflection_is_rigid_and_the_assumption_is_recorded():
+    fan = item("fan", rpm=1450, blades=12)
+    shaft = by_source(excitations_for(fan, STANDARD), "shaft")[0]
+    assert shaft.transmissibility == 1.0
+    assert shaft.mount.rigid_assumed and shaft.mount.kind == "rigid"
+    assert "assumed" in shaft.mount.description
+    # vortex shedding acts on the wire itself: no mount at all
+    wind = excitations_for(item("flow", velocity=10.0, wire_diameter=0.002), STANDARD)
+    assert wind[0].mount is None and wind[0].path == "direct"
+
+
+def test_default_damping_by_kind_of_isolator():
+    # Steel springs from about 12 mm static deflection, elastomer below (common practice).
+    assert mount_of(item("pump", rpm=1450, vanes=6, isolator_deflection=0.05)).damping_ratio \
+        == SPRING_DAMPING
+    pad = mount_of(item("pump", rpm=1450, vanes=6, isolator_deflection=0.004))
+    assert pad.kind == "elastomer" and pad.damping_ratio == ELASTOMER_DAMPING
+    given = mount_of(item("pump", rpm=1450, vanes=6, isolator_deflection=0.004,
+                          isolator_damping=0.08))
+    assert given.damping_ratio == 0.08 and not given.damping_assumed
+
+
+def test_a_mount_that_amplifies_a_tone_is_a_warning_on_its_row():
+    # A 900 rpm fan (15 Hz) on 2 mm pads: f_n = 15.76/√2 = 11.1 Hz, r = 1.35 < √2, so the
+    # mounts pass more force than a rigid fixing would (T > 1; Harris).
+    fan = item("fan", rpm=900, blades=6, tag="EF-3", isolator_deflection=0.002)
+    excs = excitations_for(fan, STANDARD)
+    shaft = by_source(excs, "shaft")[0]
+    assert shaft.transmissibility > 1
+    (warning,) = mount_warnings(fan, excs)
+    assert warning.severity == "warning" and warning.row == 7 and warning.record == "EF-3"
+    assert "amplify" in warning.message and "shaft ×1" in warning.message
+    # the deflection that puts 15 Hz three times above the mount: g·(3/2πf)² = 9.9 mm
+    assert "10 mm" in warning.message
+    _, problems = excitations_for_schedule([fan], STANDARD)
+    assert [p.severity for p in problems] == ["warning"]
+    # the same fan on 25 mm springs: no warning
+    assert mount_warnings(fan, excitations_for(
+        item("fan", rpm=900, blades=6, isolator_deflection=0.025), STANDARD)) == ()
+
+
+def test_an_impossible_isolator_is_a_problem_naming_its_column():
+    bad = item("fan", rpm=900, blades=6, isolator_deflection=-0.01,
+               entered=(("Isolator deflection (mm)", "-10"),))
+    with pytest.raises(ExcitationError) as info:
+        excitations_for(bad, STANDARD)
+    assert info.value.problem.column == "Isolator deflection (mm)"
+    assert "positive" in info.value.problem.message
