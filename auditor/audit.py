@@ -113,6 +113,7 @@ def audit_schedule(
     *,
     calibrated: Sequence[Panel] = (),
     measured_peaks: dict[str, tuple[float, ...]] | None = None,
+    calibrations: Sequence = (),
     with_shapes: bool = True,
     progress: Progress | None = None,
     created: str | None = None,
@@ -128,6 +129,8 @@ def audit_schedule(
         with the same id.
     measured_peaks : dict panel id → peaks [Hz]
         Tap-test peaks, shown on the report's interference chart.
+    calibrations : sequence of auditor.calibrate.Calibration
+        The tap-test fits behind ``calibrated``, kept for the report's site-verification page.
     with_shapes : bool
         Sample the shapes of the modes named in findings (needed by the PDF only).
     progress : callable(done, total), optional
@@ -184,6 +187,7 @@ def audit_schedule(
         created=created or _dt.datetime.now().astimezone().isoformat(timespec="seconds"),
         calibrated=bool(calibrated),
         mounts=tuple((item.equipment, mount_of(item)) for item, _ in pairs),
+        calibrations=tuple(calibrations),
     )
 
 
@@ -258,10 +262,14 @@ def audit(
     *,
     rules: str | Path = "standard",
     calibrated: bool = False,
+    recordings_anywhere: bool = False,
     with_shapes: bool = True,
     progress: Progress | None = None,
 ) -> AuditResult:
     """Read schedule files and audit them: the whole job from Python.
+
+    ``calibrated`` fits each panel's tension to its tap-test recording first; recordings are
+    read only from inside each schedule's folder unless ``recordings_anywhere``.
 
     >>> from auditor.audit import audit
     >>> result = audit(["project.xlsx"], rules="standard")     # doctest: +SKIP
@@ -274,12 +282,15 @@ def audit(
     if calibrated:
         from auditor.calibrate import apply_calibration, calibrate_schedule
 
-        calibrations, cal_problems = calibrate_schedule(schedule,
-                                                        calibration_modes(schedule.project))
+        calibrations, cal_problems = calibrate_schedule(
+            schedule, calibration_modes(schedule.project), allow_outside=recordings_anywhere)
         by_id = {p.panel: p for p in schedule.panels}
         for c in calibrations:
             fitted.append(apply_calibration(by_id[c.panel], c))
             peaks[c.panel] = tuple(c.peaks_hz)
         schedule = dataclasses.replace(schedule, problems=schedule.problems + tuple(cal_problems))
+    else:
+        calibrations = ()
     return audit_schedule(schedule, ruleset, calibrated=fitted, measured_peaks=peaks,
-                          with_shapes=with_shapes, progress=progress)
+                          calibrations=calibrations, with_shapes=with_shapes,
+                          progress=progress)

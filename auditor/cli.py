@@ -425,8 +425,8 @@ def _run_audit(schedule, rules, out, as_json, fail_on, formats, detail, calibrat
     try:
         with bar:
             result = run(schedule, rules=rules, calibrated=calibrated,
-                         with_shapes=out is not None and "pdf" in wanted, progress=update,
-                         **({"recordings_anywhere": True} if recordings_anywhere else {}))
+                         recordings_anywhere=recordings_anywhere,
+                         with_shapes=out is not None and "pdf" in wanted, progress=update)
     except RuleSetError as exc:
         console.print(f"[red]rule set:[/] {escape(str(exc))}", highlight=False)
         return 2
@@ -470,34 +470,55 @@ def _run_audit(schedule, rules, out, as_json, fail_on, formats, detail, calibrat
     return 0
 
 
+#: How many panels the terminal summary lists (the PDF and the exports list them all).
+_SUMMARY_PANELS = 40
+
+_VERDICT_STYLE = {"conflict": "bold red", "not assessed": "magenta", "caution": "yellow",
+                  "clear": "green"}
+
+
+def _worst_line(panel_result) -> str:
+    """The panel's worst finding in one line (findings are worst first)."""
+    if not panel_result.findings:
+        return panel_result.verdict_reason
+    f = panel_result.findings[0]
+    e = f.excitation
+    tone = (f"{e.band_hz[0]:.1f}–{e.band_hz[1]:.1f} Hz" if e.band_hz
+            else f"{e.frequency_hz:.1f} Hz")
+    return (f"mode {f.mode.label} {f.mode.frequency_hz:.1f} Hz against {e.equipment} "
+            f"{e.description} {tone} ({100 * f.separation:+.1f} %, {f.response_db:+.0f} dB)")
+
+
 def _print_summary(console, result) -> None:
+    """The panels that need action, worst first, each with its one remedy; then the totals."""
     from rich.table import Table
 
-    s = result.summary()
-    table = Table(title="Conflicts", title_justify="left")
-    for head in ("Panel", "Mode", "Hz", "Equipment", "Excitation", "Hz", "Sep.", "Remedy"):
-        table.add_column(head, overflow="fold")
-    for f in result.findings:
-        if f.severity != "conflict":
-            continue
-        e = f.excitation
-        exc_hz = (f"{e.band_hz[0]:.1f}–{e.band_hz[1]:.1f}" if e.band_hz
-                  else f"{e.frequency_hz:.1f}")
-        table.add_row(Text(f.panel), f.mode.label, f"{f.mode.frequency_hz:.1f}",
-                      Text(e.equipment), Text(e.description), exc_hz,
-                      f"{100 * f.separation:+.1f} %",
-                      Text(f.remedy.text if f.remedy else ""))
-    if s["conflicts"]:
-        from auditor.remedy import SAFETY_NOTE
+    from auditor.remedy import SAFETY_NOTE
 
+    s = result.summary()
+    action = [p for p in result.ranked_panels() if p.verdict != "clear"]
+    if action:
+        table = Table(title="Panels that need attention, worst first", title_justify="left")
+        for head in ("Panel", "Verdict", "Assessed to", "Worst finding", "Remedy"):
+            table.add_column(head, overflow="fold")
+        for p in action[:_SUMMARY_PANELS]:
+            table.add_row(Text(p.panel.panel),
+                          Text(p.verdict, style=_VERDICT_STYLE.get(p.verdict, "")),
+                          f"{p.assessed_to_hz:.0f} Hz", Text(_worst_line(p)),
+                          Text(p.remedy.text if p.remedy else ""))
         console.print(table)
-        console.print(Text(SAFETY_NOTE))
+        if len(action) > _SUMMARY_PANELS:
+            console.print(f"… and {len(action) - _SUMMARY_PANELS} more (see the PDF or JSON)")
+        if any(p.remedy is not None and p.remedy.work for p in action):
+            console.print(Text(SAFETY_NOTE))
     _print_problems(console, result.problems)
     console.print(
         f"{s['panels']} panels, {s['equipment']} equipment items, rule set "
-        f"'{escape(result.ruleset.name)}': [bold red]{s['conflicts']} conflicts[/], "
-        f"[yellow]{s['cautions']} cautions[/], {s['panels_clear']} panels clear; "
-        f"{s['rejected_rows']} rejected rows, {s['warnings']} warnings.")
+        f"'{escape(result.ruleset.name)}': [bold red]{s['conflicts']} conflicts[/] on "
+        f"{s['panels_with_conflicts']} panels, [yellow]{s['cautions']} cautions[/], "
+        f"[magenta]{s['panels_not_assessed']} panels not assessed[/], "
+        f"[green]{s['panels_clear']} panels clear[/]; {s['rejected_rows']} rejected rows, "
+        f"{s['warnings']} warnings.")
 
 
 _AUDIT_HELP = {

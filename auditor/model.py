@@ -580,6 +580,7 @@ class AuditResult:
     created: str  # ISO 8601 date-time of the audit
     calibrated: bool = False
     mounts: tuple[tuple[str, Mount], ...] = ()
+    calibrations: tuple[Any, ...] = ()  # auditor.calibrate.Calibration, one per tap test used
 
     @property
     def findings(self) -> tuple[Finding, ...]:
