@@ -1,23 +1,23 @@
-"""Vector figures for the PDF audit: the interference chart and the mode-shape drawings.
+"""Vector figures for the PDF audit: the mode-shape drawings, and the pieces the charts share.
 
-Both are ``reportlab.graphics.shapes.Drawing`` objects (vector, placed in the document as
+Drawings are ``reportlab.graphics.shapes.Drawing`` objects (vector, placed in the document as
 flowables). The writers only read the audit result: frequencies, participation factors and
-sampled shapes come from the records; nothing here recomputes physics.
+sampled shapes come from the records; nothing here recomputes physics. The interference and
+tuning charts are in ``auditor.report.charts``.
 
 Small pure pieces come first (log-axis ticks, marching squares for the nodal lines, merged runs
-of raster cells for the ± regions); the two drawing functions assemble them.
+of raster cells for the ± regions); the drawing functions assemble them.
 """
 
 from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Any, Iterable, Sequence
+from typing import Any, Iterable
 
 import numpy as np
 from reportlab.graphics.shapes import (
     FILL_EVEN_ODD,
-    FILL_NON_ZERO,
     Circle,
     Drawing,
     Group,
@@ -27,10 +27,10 @@ from reportlab.graphics.shapes import (
     Rect,
     String,
 )
-from reportlab.lib.colors import Color, HexColor, white
+from reportlab.lib.colors import Color, HexColor
 from reportlab.pdfbase.pdfmetrics import stringWidth
 
-from auditor.model import CircleCutout, Excitation, Mode, Panel, PanelResult, ShapeGrid
+from auditor.model import CircleCutout, Mode, Panel, ShapeGrid
 from auditor.report.text import clean_text, format_hz, to_latin1
 
 __all__ = [
@@ -43,7 +43,6 @@ __all__ = [
     "merged_cell_runs",
     "layered_cell_runs",
     "simplify_polyline",
-    "interference_chart",
     "mode_shape_drawing",
     "shape_legend",
 ]
@@ -77,6 +76,10 @@ class FigureStyle:
     nodal: str = "#111111"
     outline: str = "#111111"
     cutout: str = "#eeeeee"
+    not_assessed: str = "#6a4c93"
+    clear_window: str = "#a9d5a0"
+    clear_label: str = "#3c7a3c"
+    proposed: str = "#1f3f5b"
     #: True when the fonts are the PDF base fonts, which show only Western European text
     latin1: bool = False
 
@@ -85,6 +88,15 @@ class FigureStyle:
         unprintable characters as U+FFFD (or "?" with the base fonts)."""
         shown = clean_text(text)
         return to_latin1(shown) if self.latin1 else shown
+
+
+def _fit(text: str, font: str, size: float, width: float) -> str:
+    """A one-line label shortened with an ellipsis to ``width`` [pt]."""
+    if stringWidth(text, font, size) <= width:
+        return text
+    while text and stringWidth(text + "\u2026", font, size) > width:
+        text = text[:-1]
+    return text + "\u2026"
 
 
 def _colour(hex_string: str, alpha: float | None = None) -> Color:
@@ -130,7 +142,8 @@ def frequency_axis_range(frequencies_hz: Iterable[float], pad: float = 1.25) -> 
     return low_snapped, high_snapped
 
 
-def log_frequency_ticks(low_hz: float, high_hz: float) -> tuple[list[float], list[float], list[float]]:
+def log_frequency_ticks(low_hz: float,
+                        high_hz: float) -> tuple[list[float], list[float], list[float]]:
     """Tick positions for a log-frequency axis from ``low_hz`` to ``high_hz``  [Hz].
 
     Returns
@@ -263,7 +276,8 @@ def marching_squares(x: np.ndarray, y: np.ndarray, values: np.ndarray,
 
         va, vb, vc, vd = v[jj, ii], v[jj, ii + 1], v[jj + 1, ii + 1], v[jj + 1, ii]
         x0, x1, y0, y1 = x[ii], x[ii + 1], y[jj], y[jj + 1]
-        t_bottom, t_right, t_top, t_left = crossing(va, vb), crossing(vb, vc), crossing(vd, vc), crossing(va, vd)
+        t_bottom, t_right = crossing(va, vb), crossing(vb, vc)
+        t_top, t_left = crossing(vd, vc), crossing(va, vd)
     points = (
         np.column_stack([x0 + t_bottom * (x1 - x0), y0]),
         np.column_stack([x1, y0 + t_right * (y1 - y0)]),
@@ -306,8 +320,9 @@ def marching_squares(x: np.ndarray, y: np.ndarray, values: np.ndarray,
     s_id = np.concatenate(starts_id)
     e_id = np.concatenate(ends_id)
     point_of: dict[int, np.ndarray] = {}
-    for key_list, pts in ((s_id.tolist(), np.concatenate(starts_pt)), (e_id.tolist(), np.concatenate(ends_pt))):
-        point_of.update(zip(key_list, pts))
+    for key_list, pts in ((s_id.tolist(), np.concatenate(starts_pt)),
+                          (e_id.tolist(), np.concatenate(ends_pt))):
+        point_of.update(zip(key_list, pts, strict=False))
     return _join_segments(s_id.tolist(), e_id.tolist(), point_of)
 
 
@@ -350,7 +365,7 @@ def _join_segments(starts: list[int], ends: list[int],
                    point_of: dict[int, np.ndarray]) -> list[np.ndarray]:
     """Chain segments (pairs of edge ids) into polylines; each edge id joins at most two."""
     neighbours: dict[int, list[int]] = {}
-    for s, e in zip(starts, ends):
+    for s, e in zip(starts, ends, strict=False):
         if s == e:
             continue
         neighbours.setdefault(s, []).append(e)
@@ -426,7 +441,8 @@ def _runs(cls: np.ndarray) -> dict[int, list[tuple[int, int, int, int]]]:
     open_runs: dict[tuple[int, int, int], int] = {}
     current: dict[tuple[int, int, int], int] = {}
     row_now = 0
-    for j, i0, i1, k in zip(rows.tolist(), cols.tolist(), ends.tolist(), kinds.tolist()):
+    for j, i0, i1, k in zip(rows.tolist(), cols.tolist(), ends.tolist(), kinds.tolist(),
+                            strict=True):
         if j != row_now:
             for (a, b, kk), j0 in open_runs.items():
                 out.setdefault(kk, []).append((a, j0, b, row_now))
@@ -476,7 +492,8 @@ def layered_cell_runs(values: np.ndarray, strong: float = 0.5, partial: bool = F
 
 
 def simplify_polyline(points: np.ndarray, tolerance: float) -> np.ndarray:
-    """Drop points closer than ``tolerance`` to the chord of their neighbours (Ramer-Douglas-Peucker).
+    """Drop points closer than ``tolerance`` to the chord of their neighbours
+    (Ramer-Douglas-Peucker).
 
     References
     ----------
@@ -490,7 +507,8 @@ def simplify_polyline(points: np.ndarray, tolerance: float) -> np.ndarray:
     # exactly collinear interior points go first, in one vectorised pass (shape unchanged)
     before, here, after = pts[:-2], pts[1:-1], pts[2:]
     chord = after - before
-    cross = np.abs(chord[:, 0] * (here[:, 1] - before[:, 1]) - chord[:, 1] * (here[:, 0] - before[:, 0]))
+    cross = np.abs(chord[:, 0] * (here[:, 1] - before[:, 1])
+                   - chord[:, 1] * (here[:, 0] - before[:, 0]))
     straight = cross <= 1e-9 * (np.hypot(chord[:, 0], chord[:, 1]) ** 2 + 1e-300)
     if straight.any():
         pts = pts[np.r_[True, ~straight, True]]
@@ -523,7 +541,8 @@ def simplify_polyline(points: np.ndarray, tolerance: float) -> np.ndarray:
 # Mode-shape drawing
 # ---------------------------------------------------------------------------------------------
 
-def _panel_bounds(panel: Panel | None, shape: ShapeGrid | None) -> tuple[float, float, float, float]:
+def _panel_bounds(panel: Panel | None,
+                  shape: ShapeGrid | None) -> tuple[float, float, float, float]:
     if panel is not None:
         if panel.shape == "rectangle" and panel.width and panel.length:
             return 0.0, 0.0, float(panel.width), float(panel.length)
@@ -532,7 +551,8 @@ def _panel_bounds(panel: Panel | None, shape: ShapeGrid | None) -> tuple[float, 
             return -r, -r, r, r
         if panel.shape == "polygon" and panel.outline:
             o = np.asarray(panel.outline, float)
-            return float(o[:, 0].min()), float(o[:, 1].min()), float(o[:, 0].max()), float(o[:, 1].max())
+            return (float(o[:, 0].min()), float(o[:, 1].min()), float(o[:, 0].max()),
+                    float(o[:, 1].max()))
     if shape is not None:
         x, y = np.asarray(shape.x, float), np.asarray(shape.y, float)
         return float(x.min()), float(y.min()), float(x.max()), float(y.max())
@@ -624,7 +644,8 @@ def mode_shape_drawing(shape: ShapeGrid, panel: Panel | None, mode: Mode | None,
         nodal = Path(strokeColor=_colour(style.nodal), strokeWidth=0.8, fillColor=None,
                      strokeLineJoin=1, strokeLineCap=1)
         for line in marching_squares(x, y, values, 0.0):
-            pts = simplify_polyline(np.column_stack([ox + scale * line[:, 0], oy + scale * line[:, 1]]), 0.15)
+            pts = simplify_polyline(np.column_stack([ox + scale * line[:, 0],
+                                                     oy + scale * line[:, 1]]), 0.15)
             nodal.moveTo(float(pts[0, 0]), float(pts[0, 1]))
             for px_, py_ in pts[1:].tolist():
                 nodal.lineTo(px_, py_)
@@ -645,9 +666,10 @@ def mode_shape_drawing(shape: ShapeGrid, panel: Panel | None, mode: Mode | None,
     drawing.add(String(width / 2.0, caption_height - 10.0, text, fontName=style.font_bold,
                        fontSize=7.5, fillColor=_colour(style.text), textAnchor="middle"))
     if note:
-        drawing.add(String(width / 2.0, caption_height - 19.5, style.label(note),
-                           fontName=style.font,
-                           fontSize=6.5, fillColor=_colour(style.axis), textAnchor="middle"))
+        drawing.add(String(width / 2.0, caption_height - 19.5,
+                           _fit(style.label(note), style.font, 7.0, width - 2),
+                           fontName=style.font, fontSize=7.0, fillColor=_colour(style.axis),
+                           textAnchor="middle"))
     return drawing
 
 
@@ -668,7 +690,8 @@ def _outline_path(panel: Panel, ox: float, oy: float, scale: float) -> Path | No
             rings.append(_circle_points(ox + scale * cut.x, oy + scale * cut.y,
                                         scale * cut.diameter / 2.0, 72))
         else:
-            rings.append([v for (px, py) in cut.vertices for v in (ox + scale * px, oy + scale * py)])
+            rings.append([v for (px, py) in cut.vertices
+                          for v in (ox + scale * px, oy + scale * py)])
     path = Path(isClipPath=1, fillMode=FILL_EVEN_ODD, strokeColor=None, fillColor=None)
     for ring in rings:
         path.moveTo(ring[0], ring[1])
@@ -724,234 +747,3 @@ def shape_legend(style: FigureStyle = FigureStyle(), width: float = 300.0) -> Dr
                strokeWidth=0.6))
     d.add(String(x + 18, 4, "cut-out", fontName=style.font, fontSize=7, fillColor=text))
     return d
-
-
-# ---------------------------------------------------------------------------------------------
-# Interference chart
-# ---------------------------------------------------------------------------------------------
-
-def excitation_label(excitation: Excitation) -> str:
-    """Short chart label: equipment tag, source and harmonic order, e.g. "AHU-1 blade-pass ×2"."""
-    return f"{excitation.equipment} {excitation.source} \u00d7{excitation.order}"
-
-
-def interference_chart(result: PanelResult, excitations: Sequence[Excitation], *,
-                       conflict_margin: float | None, caution_margin: float | None,
-                       width: float = 480.0, height: float = 200.0,
-                       style: FigureStyle = FigureStyle()) -> Drawing:
-    """Modes against excitation lines and bands on a log-frequency axis.
-
-    Parameters
-    ----------
-    result : PanelResult
-        Its modes (markers sized by participation, coloured by the worst finding they are part
-        of), findings, and tap-test peaks (distinct markers in their own lane).
-    excitations : sequence of Excitation
-        Those reaching the panel; lines, or shaded bands.
-    conflict_margin, caution_margin : float or None  [-]
-        Nominal rule-set margins as fractions of the excitation frequency; drawn as light
-        shading around each line (or band edge). None leaves the window out.
-    width, height : float  [pt]
-    style : FigureStyle
-    """
-    font, text_colour = style.font, _colour(style.text)
-    label_size = 6.3
-    left, right = 50.0, 10.0
-    legend_h, axis_h = 20.0, 22.0
-    bottom = legend_h + axis_h
-    n_label_lanes = 4
-    lane_h = 8.5
-    top_labels = n_label_lanes * lane_h + 4.0
-    plot_w = width - left - right
-    plot_y0, plot_y1 = bottom, height - top_labels
-    plot_h = plot_y1 - plot_y0
-
-    all_f: list[float] = [m.frequency_hz for m in result.modes]
-    for e in excitations:
-        all_f += [e.low_hz, e.high_hz]
-    all_f += list(result.measured_peaks_hz)
-    f_low, f_high = frequency_axis_range(all_f)
-    log_low, log_span = math.log10(f_low), math.log10(f_high / f_low)
-
-    def fx(f: float) -> float:
-        return left + plot_w * (math.log10(f) - log_low) / log_span
-
-    def clip_x(f: float) -> float:
-        return min(max(fx(max(f, 1e-12)), left), left + plot_w)
-
-    d = Drawing(width, height)
-    axis_colour = _colour(style.axis)
-    major, minor, labelled = log_frequency_ticks(f_low, f_high)
-
-    # frame and grid
-    d.add(Rect(left, plot_y0, plot_w, plot_h, fillColor=None, strokeColor=_colour(style.grid),
-               strokeWidth=0.6))
-    for ticks, weight in ((minor, 0.3), (major, 0.6)):
-        grid = Path(strokeColor=_colour(style.grid), strokeWidth=weight, fillColor=None)
-        for f in ticks:
-            grid.moveTo(fx(f), plot_y0)
-            grid.lineTo(fx(f), plot_y1)
-        d.add(grid)
-
-    # windows (caution under conflict), then bands, then lines
-    involved_excitations = {_excitation_key(f.excitation): f.severity for f in result.findings
-                            if f.severity == "conflict"}
-    for f in result.findings:
-        involved_excitations.setdefault(_excitation_key(f.excitation), f.severity)
-
-    windows = [(caution_margin, style.caution_window, 0.35), (conflict_margin, style.conflict_window, 0.35)]
-    for margin, colour_hex, alpha in windows:
-        if margin is None or margin <= 0:
-            continue
-        # one path per window kind: overlapping windows of a kind show as their union
-        shading = Path(fillColor=_colour(colour_hex, alpha), strokeColor=None, strokeWidth=0,
-                       fillMode=FILL_NON_ZERO)
-        for e in excitations:
-            lo, hi = e.low_hz * (1 - margin), e.high_hz * (1 + margin)
-            if hi < f_low or lo > f_high or lo <= 0:
-                continue
-            x0, x1 = clip_x(lo), clip_x(hi)
-            shading.moveTo(x0, plot_y0)
-            shading.lineTo(x1, plot_y0)
-            shading.lineTo(x1, plot_y1)
-            shading.lineTo(x0, plot_y1)
-            shading.closePath()
-        d.add(shading)
-
-    line_colour = _colour(style.excitation)
-    severity_colour = {"conflict": _colour(style.conflict), "caution": _colour(style.caution)}
-    placed: list[tuple[float, str, Color]] = []
-    for e in sorted(excitations, key=lambda e: e.low_hz):
-        if e.high_hz < f_low or e.low_hz > f_high:
-            continue
-        sev = involved_excitations.get(_excitation_key(e))
-        colour = severity_colour.get(sev, line_colour)
-        weight = 1.1 if sev else 0.7
-        if e.band_hz is not None and e.high_hz > e.low_hz:
-            x0, x1 = clip_x(e.low_hz), clip_x(e.high_hz)
-            d.add(Rect(x0, plot_y0, x1 - x0, plot_h, fillColor=_colour(style.band, 0.22),
-                       strokeColor=None, strokeWidth=0))
-            for xe in (x0, x1):
-                d.add(Line(xe, plot_y0, xe, plot_y1, strokeColor=colour, strokeWidth=weight * 0.7))
-            placed.append((x0, style.label(excitation_label(e)), colour))
-        else:
-            xe = fx(e.frequency_hz)
-            d.add(Line(xe, plot_y0, xe, plot_y1, strokeColor=colour, strokeWidth=weight))
-            placed.append((xe, style.label(excitation_label(e)), colour))
-
-    # labels above the plot, greedy lanes so they do not overlap
-    lane_end = [-1e9] * n_label_lanes
-    for xe, label, colour in placed:
-        w = stringWidth(label, font, label_size)
-        x_text = min(xe + 1.5, width - w - 1)
-        lane = next((k for k in range(n_label_lanes) if lane_end[k] < x_text - 2), None)
-        if lane is None:
-            lane = int(np.argmin(lane_end))
-        lane_end[lane] = x_text + w
-        y_text = plot_y1 + 3.0 + lane * lane_h
-        d.add(Line(xe, plot_y1, xe, y_text + 6.0, strokeColor=colour, strokeWidth=0.3,
-                   strokeDashArray=[1, 1.5]))
-        d.add(String(x_text, y_text, label, fontName=font, fontSize=label_size, fillColor=colour))
-
-    # lanes inside the plot
-    has_measured = bool(result.measured_peaks_hz)
-    mode_y = plot_y0 + plot_h * (0.60 if has_measured else 0.5)
-    tap_y = plot_y0 + plot_h * 0.22
-    d.add(String(left - 4, mode_y - 2.5, "modes", fontName=font, fontSize=7, fillColor=text_colour,
-                 textAnchor="end"))
-    if has_measured:
-        d.add(String(left - 4, tap_y - 2.5, "tap test", fontName=font, fontSize=7,
-                     fillColor=text_colour, textAnchor="end"))
-
-    mode_severity: dict[tuple[str, float], str] = {}
-    for finding in result.findings:
-        key = (finding.mode.label, round(finding.mode.frequency_hz, 9))
-        if mode_severity.get(key) != "conflict":
-            mode_severity[key] = finding.severity
-    plain = _colour(style.mode)
-    for mode in sorted(result.modes, key=lambda m: -m.participation):
-        if not (f_low <= mode.frequency_hz <= f_high):
-            continue
-        sev = mode_severity.get((mode.label, round(mode.frequency_hz, 9)))
-        colour = severity_colour.get(sev, plain)
-        r = participation_marker_radius(mode.participation)
-        xm = fx(mode.frequency_hz)
-        if mode.participation <= 0:
-            d.add(Circle(xm, mode_y, r, fillColor=white, strokeColor=colour, strokeWidth=0.8))
-        else:
-            d.add(Circle(xm, mode_y, r, fillColor=colour, strokeColor=white, strokeWidth=0.4))
-        if sev:
-            d.add(String(xm, mode_y + r + 2.5, style.label(mode.label), fontName=font, fontSize=6,
-                         fillColor=colour, textAnchor="middle"))
-    measured = _colour(style.measured)
-    for f in result.measured_peaks_hz:
-        if not (f_low <= f <= f_high):
-            continue
-        xm = fx(f)
-        d.add(Polygon([xm - 3.2, tap_y + 2.8, xm + 3.2, tap_y + 2.8, xm, tap_y - 3.0],
-                      fillColor=measured, strokeColor=None, strokeWidth=0))
-
-    # frequency axis
-    d.add(Line(left, plot_y0, left + plot_w, plot_y0, strokeColor=axis_colour, strokeWidth=0.8))
-    for ticks, length, weight in ((major, 4.0, 0.8), (minor, 2.2, 0.5)):
-        marks = Path(strokeColor=axis_colour, strokeWidth=weight, fillColor=None)
-        for f in ticks:
-            marks.moveTo(fx(f), plot_y0)
-            marks.lineTo(fx(f), plot_y0 - length)
-        d.add(marks)
-    for f in labelled:
-        d.add(String(fx(f), plot_y0 - 11, _tick_label(f), fontName=font, fontSize=7,
-                     fillColor=text_colour, textAnchor="middle"))
-    d.add(String(left + plot_w, plot_y0 - 20, "frequency [Hz]", fontName=font, fontSize=7,
-                 fillColor=text_colour, textAnchor="end"))
-
-    _chart_legend(d, style, conflict_margin, caution_margin, has_measured,
-                  any(e.band_hz for e in excitations), left)
-    return d
-
-
-def _excitation_key(e: Excitation) -> tuple[str, str, int, float]:
-    return (e.equipment, e.source, e.order, round(e.frequency_hz, 9))
-
-
-def _chart_legend(d: Drawing, style: FigureStyle, conflict_margin: float | None,
-                  caution_margin: float | None, has_measured: bool, has_band: bool,
-                  left: float) -> None:
-    font, size = style.font, 6.5
-    text = _colour(style.text)
-    y = 5.0
-    x = left
-
-    def label(s: str) -> None:
-        nonlocal x
-        d.add(String(x, y - 2.3, s, fontName=font, fontSize=size, fillColor=text))
-        x += stringWidth(s, font, size) + 9
-
-    label("mode, sized by participation:")
-    x -= 5
-    for p, name in ((0.0, "0"), (0.1, "0.1"), (0.3, "0.3"), (0.65, "0.65")):
-        r = participation_marker_radius(p)
-        x += r
-        if p == 0:
-            d.add(Circle(x, y, r, fillColor=white, strokeColor=_colour(style.mode), strokeWidth=0.8))
-        else:
-            d.add(Circle(x, y, r, fillColor=_colour(style.mode), strokeColor=None))
-        x += r + 2
-        label(name)
-        x -= 4
-    x += 6
-    for margin, colour_hex, name in ((conflict_margin, style.conflict_window, "conflict window"),
-                                     (caution_margin, style.caution_window, "caution window")):
-        if margin:
-            d.add(Rect(x, y - 3.5, 10, 7, fillColor=_colour(colour_hex, 0.6), strokeColor=None))
-            x += 13
-            label(f"{name} \u00b1{100 * margin:g} %")
-    if has_band:
-        d.add(Rect(x, y - 3.5, 10, 7, fillColor=_colour(style.band, 0.22), strokeColor=None))
-        x += 13
-        label("band")
-    if has_measured:
-        d.add(Polygon([x, y + 2.8, x + 6.4, y + 2.8, x + 3.2, y - 3.0],
-                      fillColor=_colour(style.measured), strokeColor=None))
-        x += 9
-        label("tap-test peak")

@@ -254,7 +254,8 @@ _LATIN1_FALLBACK = {
 
 
 def to_latin1(text: str) -> str:
-    """Replace characters the base-14 PDF fonts (WinAnsi) cannot show; used without a Unicode font."""
+    """Replace characters the base-14 PDF fonts (WinAnsi) cannot show (used without a
+    Unicode font)."""
     out: list[str] = []
     for ch in text:
         try:
