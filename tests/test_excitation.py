@@ -7,8 +7,15 @@ import math
 import pytest
 
 from auditor.excitation import (
-    ExcitationError, belt_pass_hz, blade_pass_hz, excitations_for, excitations_for_schedule,
-    induction_motor_speed_rpm, synchronous_speed_rpm, transformer_hum_hz, vortex_shedding_hz,
+    ExcitationError,
+    belt_pass_hz,
+    blade_pass_hz,
+    excitations_for,
+    excitations_for_schedule,
+    induction_motor_speed_rpm,
+    synchronous_speed_rpm,
+    transformer_hum_hz,
+    vortex_shedding_hz,
 )
 from auditor.model import Equipment, SourceRef
 from auditor.rules import load_ruleset
@@ -187,7 +194,10 @@ def test_other_missing_data_and_schedule_collection():
 
 from auditor.excitation import mount_of, mount_warnings  # noqa: E402
 from auditor.judgement.response import (  # noqa: E402
-    ELASTOMER_DAMPING, SPRING_DAMPING, mount_natural_frequency_hz, transmissibility,
+    ELASTOMER_DAMPING,
+    SPRING_DAMPING,
+    mount_natural_frequency_hz,
+    transmissibility,
 )
 
 

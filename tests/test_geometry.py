@@ -121,7 +121,8 @@ def test_polygon_cutout_problems():
     square_hole = PolygonCutout(((0.2, 0.2), (0.4, 0.2), (0.4, 0.4), (0.2, 0.4)))
     through = PolygonCutout(((1.0, 0.2), (1.4, 0.2), (1.4, 0.4), (1.0, 0.4)))
     problems = outline_problems(PANEL, (square_hole, through))
-    assert problems == ["cut-out 2 (polygon of 4 vertices, first at 1.00, 0.20 m) crosses the outline"]
+    assert problems == [
+        "cut-out 2 (polygon of 4 vertices, first at 1.00, 0.20 m) crosses the outline"]
     inner = PolygonCutout(((0.25, 0.25), (0.35, 0.25), (0.35, 0.35)))  # inside cut-out 1
     assert outline_problems(PANEL, (square_hole, inner)) == ["cut-out 1 overlaps cut-out 2"]
     circle_on_polygon = CircleCutout(0.45, 0.3, 0.2)
@@ -142,7 +143,8 @@ def test_key_shared_by_translated_scaled_reordered_copies():
     cuts = (CircleCutout(0.3, 0.3, 0.2), CircleCutout(0.9, 0.3, 0.1))
     key = normalised_shape_key(PANEL, cuts, 1.0)
     moved = tuple((2.5 * x + 10.0, 2.5 * y - 3.0) for x, y in PANEL)
-    moved_cuts = tuple(CircleCutout(2.5 * c.x + 10.0, 2.5 * c.y - 3.0, 2.5 * c.diameter) for c in cuts)
+    moved_cuts = tuple(CircleCutout(2.5 * c.x + 10.0, 2.5 * c.y - 3.0, 2.5 * c.diameter)
+                       for c in cuts)
     assert normalised_shape_key(moved, moved_cuts[::-1], 1.0) == key
     # other orientation and another starting vertex
     assert normalised_shape_key(PANEL[::-1][1:] + PANEL[::-1][:1], cuts, 1.0) == key

@@ -16,8 +16,7 @@ from typer.testing import CliRunner
 
 from auditor.cli import app
 from auditor.model import CircleCutout, PolygonCutout
-from auditor.schedule import read_rows, read_schedule, schedule_to_dict, write_template
-from auditor.schedule import sources
+from auditor.schedule import read_rows, read_schedule, schedule_to_dict, sources, write_template
 from auditor.schedule.serialise import typed_values
 
 # NIST SP 811 (2008) Appendix B exact definitions
@@ -478,7 +477,8 @@ def test_archive_refuses_what_a_spreadsheet_program_never_writes(tmp_path, monke
 ])
 def test_csv_encodings(tmp_path, bom, codec, warned):
     path = tmp_path / "enc.csv"
-    text = "Panel,Zone,Width (m),Length (m),Areal density,Tension\r\nP1,Café Süd,1.2,0.6,0.25,900\r\n"
+    text = ("Panel,Zone,Width (m),Length (m),Areal density,Tension\r\n"
+            "P1,Café Süd,1.2,0.6,0.25,900\r\n")
     path.write_bytes(bom + text.encode(codec))
     s = read_schedule(path)
     assert [(p.panel, p.zone) for p in s.panels] == [("P1", "Café Süd")]
@@ -556,7 +556,8 @@ def test_control_characters_are_removed_and_named(tmp_path):
     path = tmp_path / "ctl.xlsx"
     sheet = _SHEET.format(rows=_row(1, "Panel", "Zone", "Width", "Length", "Areal density",
                                     "Tension", "Remark")
-                          + _row(2, "P_x0007_1", "N_x001B_orth", "1", "1", "0.25", "900", "ok_x0008_"),
+                          + _row(2, "P_x0007_1", "N_x001B_orth", "1", "1", "0.25", "900",
+                                 "ok_x0008_"),
                           tail="")
     parts = _plain_workbook(path, sheet)
     with zipfile.ZipFile(path, "w") as z:

@@ -65,7 +65,7 @@ def display_names(paths: Sequence[str | os.PathLike]) -> list[str]:
     """
     parts = [_parts(p) for p in paths]
     names = []
-    for i, mine in enumerate(parts):
+    for mine in parts:
         others = [p for p in parts if p != mine]
         depth = 1
         while depth < len(mine) and any(p[-depth:] == mine[-depth:] for p in others):

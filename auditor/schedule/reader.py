@@ -524,7 +524,7 @@ def read_schedule(
         rows_total = max(1, sum(len(s.rows) for s in loaded.sheets))
         counted = 0
 
-        def tick(n: int) -> None:
+        def tick(n: int, base: int = base, rows_total: int = rows_total) -> None:
             nonlocal counted
             counted += n
             report(base + (per_file - per_file // 5) * min(counted, rows_total) // rows_total)

@@ -8,9 +8,9 @@ minimum not above maximum, a sealed plenum with its depth, and a shape the physi
 This is the one validation path of ``auditor check`` and ``auditor audit``: a row accepted
 here is never rejected later. The geometry is checked with the physics' own test
 (``auditor.schedule.shapes``: ``auditor.physics.geometry.outline_problems`` on the outline the
-finite-element path would mesh), and each kind of equipment must give every field ``auditor.excitation`` needs for its
-tones (the line frequency, which may come from the Project sheet, is checked once the whole
-schedule is read: :func:`line_frequency_note`).
+finite-element path would mesh), and each kind of equipment must give every field
+``auditor.excitation`` needs for its tones (the line frequency, which may come from the
+Project sheet, is checked once the whole schedule is read: :func:`line_frequency_note`).
 
 Each check yields a :class:`Note` naming the field it concerns (``None`` for the whole row);
 the reader turns notes into ``auditor.model.RowProblem`` with the file, sheet, row and the
@@ -25,12 +25,28 @@ from typing import Any, Iterable
 from auditor.model import Equipment, Panel, RowProblem, SourceRef
 from auditor.schedule.checks import LIMIT_NOTE, RANGE_NOTE, Note, fmt, range_warning, within
 from auditor.schedule.limits import (
-    AIR_DENSITY_LIMITS, AREAL_DENSITY_LIMITS, DEEPEST_USUAL_CAVITY, EQUIPMENT_LENGTH_LIMITS,
-    LARGEST_BENDING_STIFFNESS, LARGEST_COUNT, LARGEST_FREQUENCY, LARGEST_HARMONICS,
-    LARGEST_ISOLATOR_DEFLECTION, LARGEST_LOSS_FACTOR, LARGEST_RPM, LARGEST_SPAN,
-    LARGEST_TENSION, LARGEST_USUAL_SLIP, LARGEST_VELOCITY, LINE_FREQUENCY_LIMITS,
-    SMALLEST_SPAN, SPEED_OF_SOUND_LIMITS, USUAL_AREAL_DENSITY, USUAL_LINE_FREQUENCIES,
-    USUAL_LOSS_FACTOR_MAX, USUAL_TENSION,
+    AIR_DENSITY_LIMITS,
+    AREAL_DENSITY_LIMITS,
+    DEEPEST_USUAL_CAVITY,
+    EQUIPMENT_LENGTH_LIMITS,
+    LARGEST_BENDING_STIFFNESS,
+    LARGEST_COUNT,
+    LARGEST_FREQUENCY,
+    LARGEST_HARMONICS,
+    LARGEST_ISOLATOR_DEFLECTION,
+    LARGEST_LOSS_FACTOR,
+    LARGEST_RPM,
+    LARGEST_SPAN,
+    LARGEST_TENSION,
+    LARGEST_USUAL_SLIP,
+    LARGEST_VELOCITY,
+    LINE_FREQUENCY_LIMITS,
+    SMALLEST_SPAN,
+    SPEED_OF_SOUND_LIMITS,
+    USUAL_AREAL_DENSITY,
+    USUAL_LINE_FREQUENCIES,
+    USUAL_LOSS_FACTOR_MAX,
+    USUAL_TENSION,
 )
 from auditor.schedule.shapes import geometry_notes, infer_shape
 

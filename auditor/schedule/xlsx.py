@@ -255,7 +255,7 @@ def _sheet_rows(text: str, shared: list[str], date_styles: frozenset[int],
         out[index] = values
     tail = text[end:] if end > 0 else ""
     last = max(out, default=0)  # a merge never makes rows below the last with data
-    for col0, row0, col1, row1 in _MERGE.findall(tail):
+    for col0, row0, _col1, row1 in _MERGE.findall(tail):
         top = out.get(int(row0))
         c = _column_index(col0)
         value = top[c - 1] if top and len(top) >= c else None
