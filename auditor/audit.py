@@ -4,43 +4,64 @@ One direction of data flow (DESIGN.md). Nothing here reads or writes files excep
 ``read_schedule`` (and the tap-test recordings when calibrating); the writers in
 ``auditor.report`` only read the ``AuditResult``.
 
-The steps, for each panel:
+The steps:
 
-1. the tones reaching it (by zone), and from them its assessment limit
-   (``auditor.judgement.screening.assessment_limit_hz``): every mode up to it counts;
-2. its modes up to that limit on the full model (``auditor.physics.modes.modes_for``, no count
-   of modes), with the frequency up to which none is missing (``complete_to_hz``);
-3. its findings, ranked by response, and its verdict (``auditor.judgement.verdict``);
-4. for a panel with findings, its one remedy (``auditor.remedy.panel_remedy``), verified on
-   the full model.
+1. **Tone groups.** The tones reaching each zone (``auditor.judgement.screening.reaching``);
+   zones reached by the same equipment share one :class:`ToneGroup`, its excitations as
+   arrays and its assessment limit (``assessment_limit_hz``: every mode up to it counts).
+2. **Panel types.** Panels that share their physics (every field that sets their modes, and
+   the rated maximum tension their remedy may use; not their id, zone or how they were typed)
+   are one :class:`PanelType`, solved once up to the highest limit among its tone groups
+   (``auditor.physics.modes.modes_for``, no count of modes).
+3. **Judgement per type and tone group**: findings of every mode against every tone at once
+   (arrays over modes × excitation lines and bands), ranked by response, the verdict
+   (``auditor.judgement.verdict``) and, for a type with findings, its one remedy
+   (``auditor.remedy.panel_remedy``), verified on the full model.
+4. **Attribution**: each panel, in schedule order, takes its type's judgement in its tone
+   group, with its own id.
 
-Panels of one construction in one zone share steps 2–4. The audit owns one solve cache and
-passes it to every solve, so the result does not depend on what ran before.
+Types are independent, so step 3 runs in a process pool (``jobs``; each worker process keeps
+its own solve cache for the types it is given) and the results are put back in schedule
+order: the result is the same, bit for bit, for any number of jobs and whatever ran before
+in the process (one :class:`auditor.physics.cache.SolveCache` per audit, or per worker, and
+nothing else kept between calls).
 """
 
 from __future__ import annotations
 
 import dataclasses
 import datetime as _dt
+import math
+import multiprocessing
+import os
+import sys
+import threading
 from collections.abc import Callable, Sequence
+from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
 from dataclasses import dataclass
 from pathlib import Path
+
+import numpy as np
 
 from auditor import __version__
 from auditor.excitation import excitations_for_schedule, mount_of
 from auditor.judgement.screening import ExcitationArrays, assessment_limit_hz, reaching
-from auditor.judgement.verdict import PanelAssessment, assess_panel
+from auditor.judgement.verdict import PanelAssessment, assess_panel, panel_area
 from auditor.model import (
     AuditResult, Equipment, Excitation, Finding, Mode, Panel, PanelResult, Remedy, RowProblem,
     Schedule, ShapeGrid, finding_rank,
 )
 from auditor.physics.cache import SolveCache
 from auditor.physics.modes import GeometryError, PanelModes, modes_for, physics_signature
-from auditor.remedy import panel_remedy
+from auditor.remedy import RemedyMemo, panel_remedy
 from auditor.rules import RuleSet, load_ruleset
 from auditor.schedule import read_schedule
 
 Progress = Callable[[int, int], None]
+
+__all__ = ["PanelType", "ToneGroup", "audit", "audit_schedule", "judge_panel",
+           "panel_solver", "panel_types", "tone_groups", "resolved_jobs", "unsolvable_problem",
+           "calibration_modes", "equipment_excitations"]
 
 #: Modes computed for fitting tap tests: up to this frequency [Hz] and this many (fitting
 #: needs the lowest modes only; the judgement has no count of modes).
@@ -68,25 +89,144 @@ def panel_solver(fmax: float, air_density: float, speed_of_sound: float,
     return solve
 
 
+# ---------------------------------------------------------------------------------------
+# Tone groups and panel types
+# ---------------------------------------------------------------------------------------
+
+@dataclass(frozen=True, eq=False)
+class ToneGroup:
+    """The tones reaching one or more zones (the same equipment reaches them all).
+
+    ``reached_by`` holds the indices, in the schedule's equipment list, of the items that
+    reach the zones; ``limit_hz`` is the assessment limit of panels there [Hz].
+    """
+
+    reached_by: tuple[int, ...]
+    excitations: ExcitationArrays
+    limit_hz: float
+
+
+@dataclass(frozen=True, eq=False)
+class PanelType:
+    """Panels that share their physics and remedy range: one solve, one judgement per tone
+    group.
+
+    ``panel`` is the type's physics alone (id, zone, source, typed cells and tap test blank;
+    the rated ``max_tension`` kept), so it does not depend on which panel of the type comes
+    first; ``groups`` are the indices of the tone groups its panels are in (ascending) and
+    ``solve_to_hz`` the highest of their limits [Hz]; ``count`` is how many panels it has.
+    """
+
+    key: tuple
+    panel: Panel
+    groups: tuple[int, ...]
+    solve_to_hz: float
+    count: int
+
+    def cost(self) -> float:
+        """A rough relative cost of judging the type, to hand out the dearest first (measured
+        on the demo project: finite elements about ten times an analytic rectangle in air, a
+        disc about four times, a sealed cavity or a porous sheet about twice; many modes add)."""
+        p = self.panel
+        finite_elements = p.shape == "polygon" or bool(p.cutouts) or (
+            p.shape == "circle" and p.tension_x != p.tension_y)
+        weight = 10.0 if finite_elements else 4.0 if p.shape == "circle" else 1.0
+        open_mesh = p.material == "mesh" and p.airflow_resistance is None
+        if open_mesh or (p.room_side == "none" and p.plenum_side == "none"):
+            weight *= 0.2
+        else:
+            weight *= (2.0 if p.plenum_side == "sealed" else 1.0) * (
+                2.0 if p.airflow_resistance is not None else 1.0)
+        tension = max((p.tension_x * p.tension_y) ** 0.5, 1e-9)
+        modes = panel_area(p) * math.pi * self.solve_to_hz**2 * p.areal_density / tension
+        return weight * (1.0 + min(modes, 1e6) / 20000.0)
+
+
+#: The panel fields blanked in a type's representative (see :class:`PanelType`).
+_NOT_PHYSICS = {"panel": "", "zone": "", "entered": (), "tap_test": None}
+
+
+def _zone(panel: Panel, ruleset: RuleSet) -> str:
+    return panel.zone.strip().casefold() if ruleset.use_zones else ""
+
+
+def tone_groups(panels: Sequence[Panel], pairs, ruleset: RuleSet
+                ) -> tuple[list[ToneGroup], dict[str, int]]:
+    """The tone groups of the panels' zones, and each zone's group (by the zone's key)."""
+    groups: list[ToneGroup] = []
+    by_reach: dict[tuple[int, ...], int] = {}
+    zone_group: dict[str, int] = {}
+    for panel in panels:
+        zone = _zone(panel, ruleset)
+        if zone in zone_group:
+            continue
+        reached = tuple(i for i, (item, _) in enumerate(pairs)
+                        if not ruleset.use_zones or item.reaches(panel.zone))
+        if reached not in by_reach:
+            excitations = ExcitationArrays.of(reaching(panel, pairs, ruleset))
+            by_reach[reached] = len(groups)
+            groups.append(ToneGroup(reached, excitations,
+                                    assessment_limit_hz(ruleset, excitations.top_hz)))
+        zone_group[zone] = by_reach[reached]
+    return groups, zone_group
+
+
+def panel_types(panels: Sequence[Panel], groups: Sequence[ToneGroup],
+                zone_group: dict[str, int], ruleset: RuleSet
+                ) -> tuple[list[PanelType], list[tuple[int, int]]]:
+    """The panel types in order of first appearance, and for each panel its (type, group)."""
+    found: dict[tuple, tuple[Panel, set[int], int]] = {}
+    order: list[tuple] = []
+    placed: list[tuple[int, int]] = []
+    index: dict[tuple, int] = {}
+    for panel in panels:
+        key = (physics_signature(panel), panel.max_tension)
+        group = zone_group[_zone(panel, ruleset)]
+        if key not in found:
+            index[key] = len(order)
+            order.append(key)
+            found[key] = (dataclasses.replace(panel, source=None, **_NOT_PHYSICS), set(), 0)
+        representative, used, count = found[key]
+        used.add(group)
+        found[key] = (representative, used, count + 1)
+        placed.append((index[key], group))
+    types = []
+    for key in order:
+        representative, used, count = found[key]
+        ordered = tuple(sorted(used))
+        types.append(PanelType(key, representative, ordered,
+                               max(groups[g].limit_hz for g in ordered), count))
+    return types, placed
+
+
+# ---------------------------------------------------------------------------------------
+# Judging a type
+# ---------------------------------------------------------------------------------------
+
 @dataclass(frozen=True)
 class _Judged:
-    """What panels of one construction in one zone share (the solve itself is not kept)."""
+    """What the panels of one type in one tone group share (the solve itself is not kept).
+
+    ``findings`` are ranked worst first and name no panel (each panel's own id is put in
+    when it is attributed)."""
 
     modes: tuple[Mode, ...]
     loading: str
     notes: tuple[str, ...]
     shapes: tuple[ShapeGrid, ...]
     assessment: PanelAssessment
+    findings: tuple[Finding, ...]
     remedy: Remedy | None
 
 
 def judge_panel(panel: Panel, excitations: ExcitationArrays, ruleset: RuleSet,
                 solve: Callable[[Panel], PanelModes], limit_hz: float, *,
-                with_shapes: bool = True) -> _Judged:
+                with_shapes: bool = True, memo: RemedyMemo | None = None) -> _Judged:
     """Steps 2–4 for one panel (see the module docstring).
 
-    ``solve`` may compute modes above ``limit_hz`` (panels of one construction in zones with
+    ``solve`` may compute modes above ``limit_hz`` (panels of one type in tone groups with
     different limits share one solve); only those up to the limit are judged and listed.
+    ``memo`` is shared by the calls for one panel type (see ``auditor.remedy.RemedyMemo``).
 
     Raises
     ------
@@ -94,18 +234,155 @@ def judge_panel(panel: Panel, excitations: ExcitationArrays, ruleset: RuleSet,
         When the physics cannot solve the panel (``GeometryError`` included).
     """
     panel_modes = solve(panel)
-    assessment = assess_panel(panel, panel_modes.modes, excitations, ruleset,
+    assessment = assess_panel(panel, panel_modes, excitations, ruleset,
                               limit_hz=limit_hz, complete_to_hz=panel_modes.complete_to_hz)
     remedy = None
     if assessment.findings:
         remedy = panel_remedy(
             panel, excitations, ruleset, solve, limit_hz=limit_hz, solved=panel_modes,
-            beyond_hz=assessment.assessed_to_hz if assessment.beyond else None)
-    listed = tuple(m for m in panel_modes.modes if m.frequency_hz <= limit_hz)
+            beyond_hz=assessment.assessed_to_hz if assessment.beyond else None, memo=memo)
+    modes = panel_modes.modes
+    count = int(np.searchsorted(panel_modes.frequency_hz, limit_hz, side="right"))
+    listed = modes if count == len(modes) else modes[:count]
     return _Judged(listed, panel_modes.loading, panel_modes.notes + assessment.notes,
                    _shapes(panel_modes, assessment.findings) if with_shapes else (),
-                   assessment, remedy)
+                   assessment, tuple(sorted(assessment.findings, key=finding_rank)), remedy)
 
+
+@dataclass(frozen=True)
+class _TypeWork:
+    """One panel type to judge in each of its tone groups (what a worker is sent)."""
+
+    number: int
+    panel: Panel
+    solve_to_hz: float
+    groups: tuple[tuple[int, ExcitationArrays, float], ...]
+
+
+def _judge_type(work: _TypeWork, ruleset: RuleSet, air_density: float,
+                speed_of_sound: float, with_shapes: bool, cache: SolveCache
+                ) -> tuple[int, tuple[tuple[int, _Judged | ValueError], ...]]:
+    solve = panel_solver(work.solve_to_hz, air_density, speed_of_sound, cache)
+    memo = RemedyMemo()
+    out = []
+    for group, excitations, limit in work.groups:
+        try:
+            got: _Judged | ValueError = judge_panel(work.panel, excitations, ruleset, solve,
+                                                    limit, with_shapes=with_shapes, memo=memo)
+        except ValueError as exc:  # GeometryError included: the message says what is wrong
+            got = exc
+        out.append((group, got))
+    return work.number, tuple(out)
+
+
+#: The solve cache of a worker process: made by the pool's initialiser for one audit (each
+#: audit starts its own pool), so workers share nothing between audits.
+_worker_cache: SolveCache | None = None
+
+
+def _start_worker() -> None:
+    global _worker_cache
+    _worker_cache = SolveCache()
+
+
+def _judge_batch(batch: tuple[_TypeWork, ...], ruleset: RuleSet, air_density: float,
+                 speed_of_sound: float, with_shapes: bool):
+    """A worker's task: several types, judged with the worker's solve cache."""
+    cache = _worker_cache if _worker_cache is not None else SolveCache()
+    return [_judge_type(work, ruleset, air_density, speed_of_sound, with_shapes, cache)
+            for work in batch]
+
+
+def resolved_jobs(jobs: int | None) -> int:
+    """The number of worker processes for ``jobs``: None → every core (``os.cpu_count()``).
+
+    Raises
+    ------
+    ValueError
+        For a number below 1.
+    """
+    if jobs is None:
+        return max(1, os.cpu_count() or 1)
+    if isinstance(jobs, bool) or int(jobs) != jobs or jobs < 1:
+        raise ValueError(f"jobs must be a whole number ≥ 1 or None (every core), got {jobs!r}")
+    return int(jobs)
+
+
+def _batches(works: list[_TypeWork], costs: list[float], jobs: int) -> list[tuple]:
+    """The types as pool tasks, dearest first: each dear type alone, the cheap ones grouped
+    in tasks of at least a 64th of a worker's share (so that a schedule of hundreds of
+    cheap types is not sent one by one); the pool hands each task to the next free worker."""
+    order = sorted(range(len(works)), key=lambda k: (-costs[k], k))
+    least = sum(costs) / (64.0 * jobs)
+    tasks: list[tuple] = []
+    current: list[_TypeWork] = []
+    gathered = 0.0
+    for k in order:
+        current.append(works[k])
+        gathered += costs[k]
+        if gathered >= least:
+            tasks.append(tuple(current))
+            current, gathered = [], 0.0
+    if current:
+        tasks.append(tuple(current))
+    return tasks
+
+
+def _pool(jobs: int) -> ProcessPoolExecutor:
+    """A process pool of ``jobs`` workers, each with its own solve cache.
+
+    On Linux, when this process runs no other thread, workers are forked from it (nothing
+    to import again, and the calling script is not run again); otherwise (a progress bar's
+    thread, another system) they start from a clean server process (``forkserver``) or a
+    fresh interpreter (``spawn``), which import the calling script as a module: a script
+    that audits at its top level must then do it under ``if __name__ == "__main__":``, as
+    for any use of :mod:`multiprocessing`.
+    """
+    methods = multiprocessing.get_all_start_methods()
+    if sys.platform.startswith("linux") and "fork" in methods \
+            and threading.active_count() == 1:
+        context = multiprocessing.get_context("fork")
+    elif "forkserver" in methods:
+        context = multiprocessing.get_context("forkserver")
+        context.set_forkserver_preload(["auditor.audit"])
+    else:
+        context = multiprocessing.get_context("spawn")
+    return ProcessPoolExecutor(max_workers=jobs, mp_context=context,
+                               initializer=_start_worker)
+
+
+def _judge_all(types: list[PanelType], groups: list[ToneGroup], ruleset: RuleSet,
+               air_density: float, speed_of_sound: float, with_shapes: bool, jobs: int,
+               progress: Callable[[int], None]) -> dict[int, dict[int, _Judged | ValueError]]:
+    works = [_TypeWork(k, t.panel, t.solve_to_hz,
+                       tuple((g, groups[g].excitations, groups[g].limit_hz) for g in t.groups))
+             for k, t in enumerate(types)]
+    judged: dict[int, dict[int, _Judged | ValueError]] = {}
+
+    def take(results) -> None:
+        for number, outcome in results:
+            judged[number] = dict(outcome)
+            progress(types[number].count)
+
+    if jobs <= 1 or len(works) <= 1:
+        cache = SolveCache()
+        for work in works:
+            take([_judge_type(work, ruleset, air_density, speed_of_sound, with_shapes, cache)])
+        return judged
+    batches = _batches(works, [t.cost() for t in types], jobs)
+    with _pool(min(jobs, len(batches))) as pool:
+        pending = {pool.submit(_judge_batch, batch, ruleset, air_density, speed_of_sound,
+                               with_shapes) for batch in batches}
+        while pending:
+            done, pending = wait(pending, return_when=FIRST_COMPLETED)
+            for future in done:
+                take(future.result())
+    return judged
+
+
+# ---------------------------------------------------------------------------------------
+# The audit
+# ---------------------------------------------------------------------------------------
 
 def audit_schedule(
     schedule: Schedule,
@@ -117,6 +394,7 @@ def audit_schedule(
     with_shapes: bool = True,
     progress: Progress | None = None,
     created: str | None = None,
+    jobs: int | None = None,
 ) -> AuditResult:
     """Audit every panel of a schedule against every excitation that reaches it.
 
@@ -134,49 +412,45 @@ def audit_schedule(
     with_shapes : bool
         Sample the shapes of the modes named in findings (needed by the PDF only).
     progress : callable(done, total), optional
+        Called in the calling process, with the number of panels judged so far, as each
+        panel type is done (and once more at the end).
     created : str, optional
         ISO 8601 time stamp for the result (default: now, local time).
+    jobs : int or None
+        Worker processes for the panel types: None (the default) uses every core
+        (``os.cpu_count()``), 1 judges in this process. The result is the same for any.
+
+    Raises
+    ------
+    ValueError
+        For ``jobs`` below 1.
     """
+    workers = resolved_jobs(jobs)
     project = schedule.project
     pairs, problems = equipment_excitations(schedule, ruleset)
     problems = list(schedule.problems) + problems
     replaced = {p.panel: p for p in calibrated}
     panels = [replaced.get(p.panel, p) for p in schedule.panels]
-    # The tones reaching each zone and its assessment limit; each construction is solved once,
-    # up to the highest limit among the zones it is used in.
-    zones: dict[str, tuple[ExcitationArrays, float]] = {}
-    solve_to: dict[tuple, float] = {}
-    for panel in panels:
-        zone = _zone(panel, ruleset)
-        if zone not in zones:
-            excitations = ExcitationArrays.of(reaching(panel, pairs, ruleset))
-            zones[zone] = (excitations, assessment_limit_hz(ruleset, excitations.top_hz))
-        signature = physics_signature(panel)
-        solve_to[signature] = max(solve_to.get(signature, 0.0), zones[zone][1])
+    groups, zone_group = tone_groups(panels, pairs, ruleset)
+    types, placed = panel_types(panels, groups, zone_group, ruleset)
+    total = len(panels)
+    done = [0]
+
+    def advance(count: int) -> None:
+        done[0] += count
+        if progress is not None:
+            progress(done[0], total)
+
+    judged = _judge_all(types, groups, ruleset, project.air_density, project.speed_of_sound,
+                        with_shapes, workers, advance)
     peaks = measured_peaks or {}
-    cache = SolveCache()
-    judged: dict[tuple, _Judged | ValueError] = {}
     results: list[PanelResult] = []
-    for done, (scheduled, panel) in enumerate(zip(schedule.panels, panels), start=1):
-        zone = _zone(panel, ruleset)
-        excitations, limit = zones[zone]
-        signature = physics_signature(panel)
-        key = (signature, panel.max_tension, zone)
-        if key not in judged:
-            solve = panel_solver(solve_to[signature], project.air_density,
-                                 project.speed_of_sound, cache)
-            try:
-                judged[key] = judge_panel(panel, excitations, ruleset, solve, limit,
-                                          with_shapes=with_shapes)
-            except ValueError as exc:  # GeometryError included: the message says what is wrong
-                judged[key] = exc
-        got = judged[key]
+    for (scheduled, panel), (kind, group) in zip(zip(schedule.panels, panels), placed):
+        got = judged[kind][group]
         if isinstance(got, ValueError):
             problems.append(unsolvable_problem(panel, got))
         else:
             results.append(_panel_result(panel, scheduled, got, peaks))
-        if progress is not None:
-            progress(done, len(panels))
     return AuditResult(
         schedule=schedule,
         panels=tuple(results),
@@ -191,15 +465,10 @@ def audit_schedule(
     )
 
 
-def _zone(panel: Panel, ruleset: RuleSet) -> str:
-    return panel.zone.strip().casefold() if ruleset.use_zones else ""
-
-
 def _panel_result(panel: Panel, scheduled: Panel, got: _Judged,
                   peaks: dict[str, tuple[float, ...]]) -> PanelResult:
     assessment = got.assessment
-    findings = tuple(f if f.panel == panel.panel else dataclasses.replace(f, panel=panel.panel)
-                     for f in sorted(assessment.findings, key=finding_rank))
+    findings = tuple(_attributed(f, panel.panel) for f in got.findings)
     notes = got.notes + (("Tension fitted to the site tap test.",)
                          if panel is not scheduled else ())
     return PanelResult(
@@ -209,6 +478,15 @@ def _panel_result(panel: Panel, scheduled: Panel, got: _Judged,
         verdict_reason=assessment.reason, overlap_from_hz=assessment.overlap_from_hz,
         beyond=assessment.beyond, remedy=got.remedy,
     )
+
+
+def _attributed(finding: Finding, panel_id: str) -> Finding:
+    """A finding of a panel type, named for one of its panels."""
+    return Finding(panel=panel_id, mode=finding.mode, excitation=finding.excitation,
+                   separation=finding.separation, severity=finding.severity,
+                   margin=finding.margin, remedy=finding.remedy,
+                   response_db=finding.response_db, amplification=finding.amplification,
+                   transmissibility=finding.transmissibility, overlap=finding.overlap)
 
 
 def unsolvable_problem(panel: Panel, error: ValueError) -> RowProblem:
@@ -228,13 +506,13 @@ def unsolvable_problem(panel: Panel, error: ValueError) -> RowProblem:
     )
 
 
-def calibration_modes(project) -> Callable[[Panel], tuple]:
+def calibration_modes(project, cache: SolveCache | None = None) -> Callable[[Panel], tuple]:
     """The full model for fitting tap tests: a panel's lowest modes up to
-    ``CALIBRATION_FMAX_HZ``."""
+    ``CALIBRATION_FMAX_HZ`` (sharing ``cache`` between the tensions tried, when given)."""
     def modes_of(panel: Panel):
         return modes_for(panel, CALIBRATION_FMAX_HZ, max_modes=CALIBRATION_MAX_MODES,
                          air_density=project.air_density,
-                         speed_of_sound=project.speed_of_sound).modes
+                         speed_of_sound=project.speed_of_sound, cache=cache).modes
     return modes_of
 
 
@@ -248,8 +526,8 @@ def _typed(panel: Panel, column: str) -> str:
 
 
 def _shapes(panel_modes: PanelModes, findings: tuple[Finding, ...]):
-    wanted: list[int] = [0] if panel_modes.modes else []
-    labels = {m.label: k for k, m in enumerate(panel_modes.modes)}
+    wanted: list[int] = [0] if len(panel_modes) else []
+    labels = {label: k for k, label in enumerate(panel_modes.labels)}
     for f in findings:
         k = labels.get(f.mode.label)
         if k is not None and k not in wanted:
@@ -265,16 +543,19 @@ def audit(
     recordings_anywhere: bool = False,
     with_shapes: bool = True,
     progress: Progress | None = None,
+    jobs: int | None = None,
 ) -> AuditResult:
     """Read schedule files and audit them: the whole job from Python.
 
     ``calibrated`` fits each panel's tension to its tap-test recording first; recordings are
-    read only from inside each schedule's folder unless ``recordings_anywhere``.
+    read only from inside each schedule's folder unless ``recordings_anywhere``. ``jobs``:
+    worker processes (None: every core; see :func:`audit_schedule`).
 
     >>> from auditor.audit import audit
     >>> result = audit(["project.xlsx"], rules="standard")     # doctest: +SKIP
     >>> result.summary()["conflicts"]                          # doctest: +SKIP
     """
+    resolved_jobs(jobs)     # a bad value is reported before any work
     schedule = read_schedule([str(p) for p in paths])
     ruleset = load_ruleset(rules)
     fitted: list[Panel] = []
@@ -283,7 +564,8 @@ def audit(
         from auditor.calibrate import apply_calibration, calibrate_schedule
 
         calibrations, cal_problems = calibrate_schedule(
-            schedule, calibration_modes(schedule.project), allow_outside=recordings_anywhere)
+            schedule, calibration_modes(schedule.project, SolveCache()),
+            allow_outside=recordings_anywhere)
         by_id = {p.panel: p for p in schedule.panels}
         for c in calibrations:
             fitted.append(apply_calibration(by_id[c.panel], c))
@@ -293,4 +575,4 @@ def audit(
         calibrations = ()
     return audit_schedule(schedule, ruleset, calibrated=fitted, measured_peaks=peaks,
                           calibrations=calibrations, with_shapes=with_shapes,
-                          progress=progress)
+                          progress=progress, jobs=jobs)

@@ -72,7 +72,8 @@ from auditor.judgement.verdict import overlap_frequency_hz
 from auditor.model import Excitation, Panel, Remedy
 from auditor.rules import RuleSet
 
-__all__ = ["panel_remedy", "remedy_advice", "bay_panel", "scales_exactly", "SAFETY_NOTE"]
+__all__ = ["panel_remedy", "remedy_advice", "bay_panel", "scales_exactly", "RemedyMemo",
+           "SAFETY_NOTE"]
 
 #: The full model: a panel → its modes (a ``PanelModes``, or a sequence of ``Mode``).
 ModesOf = Callable[[Panel], Any]
@@ -131,15 +132,38 @@ class _State:
     overlap_from_hz: float
 
 
+class RemedyMemo:
+    """What the remedies of one panel (one type, judged in several tone groups with the same
+    full model) share: its solution at each tension scale, and its modes followed over each
+    set of scales. Each is a pure function of its key, so a remedy does not depend on which
+    others ran before; every remedy still uses only the scales its own search solved."""
+
+    def __init__(self) -> None:
+        self.states: dict[float, _State] = {}
+        self.tracks: dict[tuple, ModeTracks] = {}
+
+
 class _Solver:
     """Solves the panel at tension scales (and bays) and judges them as the audit does."""
 
     def __init__(self, panel: Panel, excitations: ExcitationArrays, ruleset: RuleSet,
-                 modes_of: ModesOf, limit_hz: float):
+                 modes_of: ModesOf, limit_hz: float, memo: RemedyMemo | None = None):
         self.panel, self.excitations, self.ruleset = panel, excitations, ruleset
         self.modes_of, self.limit_hz = modes_of, limit_hz
         self.eta0 = default_loss_factor(panel)
-        self.states: dict[float, _State] = {}
+        self.memo = RemedyMemo() if memo is None else memo
+        self.scales: dict[float, None] = {}      # the scales this search solved, in order
+
+    @property
+    def states(self) -> list[_State]:
+        return [self.memo.states[s] for s in self.scales]
+
+    def tracks(self, low: float, high: float, limit: float) -> ModeTracks:
+        """The modes followed over this search's scales (see ``mode_tracks``)."""
+        key = (tuple(self.scales), low, high)
+        if key not in self.memo.tracks:
+            self.memo.tracks[key] = mode_tracks(self.states, low, high, limit)
+        return replace(self.memo.tracks[key], limit_hz=limit)
 
     def candidate(self, scale: float) -> Panel:
         p = self.panel
@@ -152,18 +176,29 @@ class _Solver:
     def state(self, scale: float, given: Any = None) -> _State:
         """The panel at ``scale``, solved once (``given``: its modes, already solved)."""
         key = float(scale)
-        if key not in self.states:
+        if key not in self.memo.states:
             panel = self.candidate(key)
             solved = given if given is not None else self.modes_of(panel)
-            self.states[key] = self._state_of(solved, panel, key)
-        return self.states[key]
+            self.memo.states[key] = self._state_of(solved, panel, key)
+        self.scales.setdefault(key, None)
+        return self.memo.states[key]
 
     def _state_of(self, solved: Any, panel: Panel, scale: float) -> _State:
-        # ``solved`` is a PanelModes (with ``complete_to_hz``) or a plain sequence of Mode
-        # (a model complete to the limit, as the reference models of the tests are).
-        arrays = ModeArrays.of(tuple(getattr(solved, "modes", solved)), self.eta0)
+        # ``solved`` is a PanelModes (arrays, labels and ``complete_to_hz``; no records are
+        # made) or a plain sequence of Mode (a model complete to the limit, as the reference
+        # models of the tests are).
+        if isinstance(getattr(solved, "frequency_hz", None), np.ndarray):
+            arrays = ModeArrays.of(solved, self.eta0, records=False)
+            labels = tuple(solved.labels)
+            frequency = np.asarray(solved.frequency_hz)
+            if not np.all(frequency[1:] >= frequency[:-1]):
+                order = np.argsort(frequency, kind="stable")
+                labels = tuple(labels[k] for k in order)
+        else:
+            arrays = ModeArrays.of(tuple(getattr(solved, "modes", solved)), self.eta0)
+            labels = tuple(m.label for m in arrays.modes)
         overlap = overlap_frequency_hz(panel, arrays)
-        return _State(scale, arrays, tuple(m.label for m in arrays.modes),
+        return _State(scale, arrays, labels,
                       float(getattr(solved, "complete_to_hz", math.inf)),
                       overlap if overlap is not None else math.inf)
 
@@ -239,9 +274,9 @@ def _search(solver: _Solver, low: float, high: float, exact: bool) -> _Search:
     tried: set[float] = set()
     search = _Search([], None, None, {})
     for _ in range(VERIFY_ATTEMPTS):
-        states = list(solver.states.values())
+        states = solver.states
         limit = min([solver.limit_hz] + [st.complete_to_hz for st in states])
-        tracks = mode_tracks(states, low, high, limit)
+        tracks = solver.tracks(low, high, limit)
         (c_lo, c_hi), (f_lo, f_hi), tone = blocked_intervals(tracks, solver.excitations,
                                                               solver.ruleset)
         windows = complement(union(c_lo, c_hi), low, high)
@@ -317,7 +352,8 @@ def _caution_text(grades: PairGrades, state: _State, excitations: ExcitationArra
 
 def panel_remedy(panel: Panel, excitations: Sequence[Excitation] | ExcitationArrays,
                  ruleset: RuleSet, modes_of: ModesOf, *, limit_hz: float,
-                 solved: Any = None, beyond_hz: float | None = None) -> Remedy:
+                 solved: Any = None, beyond_hz: float | None = None,
+                 memo: RemedyMemo | None = None) -> Remedy:
     """The one remedy for a panel with findings (see the module docstring).
 
     Parameters
@@ -338,13 +374,16 @@ def panel_remedy(panel: Panel, excitations: Sequence[Excitation] | ExcitationArr
     beyond_hz : float, optional  [Hz]
         Set when tones reach the panel above its assessed range (the text says the remedy
         is judged up to that frequency).
+    memo : RemedyMemo, optional
+        Shared by the remedies of one panel with one ``modes_of`` in several tone groups
+        (the solutions at each tension are made once); the result does not depend on it.
 
     Returns
     -------
     Remedy
     """
     excs = ExcitationArrays.of(excitations)
-    solver = _Solver(panel, excs, ruleset, modes_of, limit_hz)
+    solver = _Solver(panel, excs, ruleset, modes_of, limit_hz, memo)
     base = solver.state(1.0, given=solved)
     now = solver.judge(base)
     tail = (f" Tones above {beyond_hz:.0f} Hz were not assessed; this remedy is judged up to "

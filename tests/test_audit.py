@@ -14,6 +14,7 @@ import io
 import json
 import math
 
+import numpy as np
 import openpyxl
 import pytest
 from typer.testing import CliRunner
@@ -219,11 +220,11 @@ def test_a_panel_the_physics_cannot_mesh_is_listed_and_the_rest_audited(tmp_path
     assert "overlap" in problem.message and problem.text.startswith("circle 600")
 
 
-def test_compact_json_is_the_findings_document_of_shared_types():
-    """The compact writer reuses the text of findings shared by panels of one type; it must
-    give exactly the document the standard library's encoder gives (Python ``json``)."""
+def test_panels_of_one_type_share_its_judgement_under_their_own_ids():
+    """Panels of one type are solved and judged once per zone; each panel's findings name
+    that panel, and the findings document (Python ``json``) carries them all."""
     from auditor.model import Equipment, Panel, Project, Schedule, SourceRef
-    from auditor.report.exports import compact_findings_json
+    from auditor.report.exports import findings_json
 
     panels = tuple(
         Panel(panel=f"C-{i}°", source=SourceRef("s.xlsx", "Panels", i + 2),
@@ -240,8 +241,15 @@ def test_compact_json_is_the_findings_document_of_shared_types():
     schedule = Schedule(panels=panels, equipment=equipment, project=Project(line_frequency=50))
     result = audit_schedule(schedule, load_ruleset("strict"), with_shapes=False)
     assert sum(len(p.findings) for p in result.panels) > 12   # types really are shared
+    for p in result.panels:
+        assert all(f.panel == p.panel.panel for f in p.findings)
+    # panels 0 and 6 are one type in one zone: the same judgement, their own ids
+    first, seventh = result.panels[0], result.panels[6]
+    assert [dataclasses.replace(f, panel="") for f in first.findings] == \
+        [dataclasses.replace(f, panel="") for f in seventh.findings]
+    assert first.modes is seventh.modes
     expected = json.loads(json.dumps(findings_document(result)))
-    assert json.loads(compact_findings_json(result)) == expected
+    assert json.loads(findings_json(result)) == expected
     # Remedies that are work on a stretched panel are flagged, and the document carries the
     # installers' caution once (common practice for tensioned systems).
     assert any(p.remedy is not None and p.remedy.work for p in result.panels)
@@ -353,3 +361,87 @@ def test_no_absolute_path_of_the_rule_set_in_the_findings_document(tmp_path):
     from auditor.rules import rules_dir
     assert str(rules_dir()) not in json.dumps(rules, ensure_ascii=False)
     assert rules["origin"].startswith("standard (bundled), SHA-256 ")
+
+
+# ----------------------------------------------------------------------------------------
+# The same result whatever ran before, in whatever order, on any number of processes
+# ----------------------------------------------------------------------------------------
+
+def _mixed_schedule():
+    """Panel types of every kind of solve (in vacuo, film in air, disc in air, a sealed
+    cavity, a porous sheet), several panels per type, in two zones, against tones that make
+    findings and remedies."""
+    from auditor.model import Equipment, Panel, Project, Schedule, SourceRef
+
+    kinds = [
+        dict(width=1.2, length=0.9, tension_x=800.0, tension_y=800.0, room_side="none",
+             plenum_side="none"),
+        dict(width=1.2, length=0.6, tension_x=900.0, tension_y=900.0),
+        dict(shape="circle", width=None, length=None, diameter=0.9, tension_x=700.0,
+             tension_y=700.0),
+        dict(width=0.9, length=0.6, tension_x=700.0, tension_y=500.0, plenum_side="sealed",
+             cavity_depth=0.05, material="fabric", areal_density=0.3),
+        dict(width=0.8, length=0.8, tension_x=600.0, tension_y=600.0, material="fabric",
+             areal_density=0.28, airflow_resistance=800.0),
+    ]
+    panels = []
+    for i in range(15):
+        base = dict(panel=f"P-{i:02d}", source=SourceRef("s.xlsx", "Panels", i + 2),
+                    zone=("Office", "Plant")[i % 2], material="film", areal_density=0.25,
+                    max_tension=2000.0)
+        base.update(kinds[i % len(kinds)])
+        panels.append(Panel(**base))
+    equipment = (
+        Equipment("AHU-1", SourceRef("s.xlsx", "Equipment", 2), "fan", zones=("Office",),
+                  rpm=600.0, blades=5),
+        Equipment("T-1", SourceRef("s.xlsx", "Equipment", 3), "tone", zones=None,
+                  frequency=43.0),
+        Equipment("T-2", SourceRef("s.xlsx", "Equipment", 4), "tone", zones=("Plant",),
+                  frequency=61.0),
+    )
+    return Schedule(panels=tuple(panels), equipment=equipment,
+                    project=Project(line_frequency=50.0))
+
+
+def _same_results(a, b):
+    """Field by field: every panel's record, modes, findings, verdict and remedy (mode-shape
+    grids by their numbers), and the rejected rows."""
+    assert [p.panel.panel for p in a.panels] == [p.panel.panel for p in b.panels]
+    for x, y in zip(a.panels, b.panels):
+        assert dataclasses.replace(x, shapes=()) == dataclasses.replace(y, shapes=())
+        assert len(x.shapes) == len(y.shapes)
+        for s, t in zip(x.shapes, y.shapes):
+            assert s.label == t.label
+            for name in ("x", "y", "values"):
+                assert np.array_equal(getattr(s, name), getattr(t, name), equal_nan=True)
+    assert a.problems == b.problems
+
+
+def test_the_result_is_the_same_on_any_number_of_processes():
+    schedule = _mixed_schedule()
+    rules = load_ruleset("standard")
+    one = audit_schedule(schedule, rules, jobs=1, created="2024-01-01T00:00:00")
+    two = audit_schedule(schedule, rules, jobs=2, created="2024-01-01T00:00:00")
+    assert sum(len(p.findings) for p in one.panels) > 0
+    assert any(p.remedy is not None for p in one.panels)
+    _same_results(one, two)
+
+
+def test_the_result_is_the_same_whatever_ran_before_and_in_any_row_order():
+    schedule = _mixed_schedule()
+    rules = load_ruleset("standard")
+    first = audit_schedule(schedule, rules, jobs=1, with_shapes=False)
+    again = audit_schedule(schedule, rules, jobs=1, with_shapes=False)
+    _same_results(first, again)
+    reordered = dataclasses.replace(schedule, panels=tuple(reversed(schedule.panels)))
+    backwards = audit_schedule(reordered, rules, jobs=1, with_shapes=False)
+    by_id = {p.panel.panel: p for p in backwards.panels}
+    for p in first.panels:
+        assert by_id[p.panel.panel] == p
+
+
+def test_jobs_must_be_a_whole_number_of_processes():
+    schedule = _mixed_schedule()
+    for bad in (0, -1, 1.5, True):
+        with pytest.raises(ValueError, match="jobs"):
+            audit_schedule(schedule, load_ruleset("standard"), jobs=bad)

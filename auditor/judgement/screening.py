@@ -151,9 +151,24 @@ class ModeArrays:
     response_loss_factor: np.ndarray
 
     @classmethod
-    def of(cls, modes: Sequence[Mode] | ModeArrays, default_loss_factor: float) -> ModeArrays:
+    def of(cls, modes: Sequence[Mode] | ModeArrays, default_loss_factor: float,
+           records: bool = True) -> ModeArrays:
+        """From ``Mode`` records, or from a solve that holds its modes as arrays (a
+        ``PanelModes``: ascending, with ``frequency_hz``, ``participation`` and
+        ``loss_factor`` arrays), whose records are taken only when ``records``."""
         if isinstance(modes, ModeArrays):
             return modes
+        if isinstance(getattr(modes, "frequency_hz", None), np.ndarray):
+            frequency = np.asarray(modes.frequency_hz, float)
+            eta = np.asarray(modes.loss_factor, float)
+            ascending = bool(np.all(frequency[1:] >= frequency[:-1]))
+            order = slice(None) if ascending else np.argsort(frequency, kind="stable")
+            listed = tuple(modes.modes) if records else ()
+            if records and not ascending:
+                listed = tuple(listed[k] for k in order)
+            return cls(listed, frequency[order], np.asarray(modes.participation, float)[order],
+                       eta[order], np.where(np.isfinite(eta[order]), np.abs(eta[order]),
+                                            default_loss_factor))
         ordered = tuple(sorted(getattr(modes, "modes", modes), key=lambda m: m.frequency_hz))
         eta = np.array([math.nan if m.loss_factor is None else m.loss_factor for m in ordered],
                        dtype=float)

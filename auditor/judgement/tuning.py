@@ -30,7 +30,6 @@ References
 from __future__ import annotations
 
 import math
-from collections import Counter
 from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Protocol
@@ -75,17 +74,9 @@ def mode_tracks(states: Sequence[SolvedScale], low: float, high: float,
     k-th); f² linear in s between solved scales, ∝ s beyond them."""
     grid = np.array(sorted({low, high, *(st.scale for st in states)}))
     column = {float(s): j for j, s in enumerate(grid)}
-    row_of: dict[tuple[str, int], int] = {}
-    placed: list[tuple[int, np.ndarray]] = []
-    for st in states:
-        seen: Counter[str] = Counter()
-        rows = np.empty(len(st.labels), dtype=int)
-        for k, label in enumerate(st.labels):
-            key = (label, seen[label])
-            seen[label] += 1
-            rows[k] = row_of.setdefault(key, len(row_of))
-        placed.append((column[float(st.scale)], rows))
-    count, width = len(row_of), len(grid)
+    rows_of, count = _track_rows([st.labels for st in states])
+    placed = [(column[float(st.scale)], rows) for st, rows in zip(states, rows_of)]
+    width = len(grid)
     f2 = np.full((count, width), np.nan)
     part = np.full((count, len(states)), np.nan)
     eta_r = np.full((count, len(states)), np.nan)
@@ -101,6 +92,35 @@ def mode_tracks(states: Sequence[SolvedScale], low: float, high: float,
     return ModeTracks(grid, f2, np.fmax.reduce(part, axis=1), np.fmin.reduce(eta_r, axis=1),
                       np.fmax.reduce(eta_m, axis=1), at_base >= base.overlap_from_hz,
                       limit_hz, base.overlap_from_hz / math.sqrt(base.scale))
+
+
+def _track_rows(labelled: Sequence[Sequence[str]]) -> tuple[list[np.ndarray], int]:
+    """The track (row) of each mode of each solve: the k-th mode of a label in one solve
+    follows the k-th of that label in the others. Rows are numbered in order of first
+    appearance (solves in turn, modes in order); returns the rows of each solve and the
+    number of tracks."""
+    sizes = [len(labels) for labels in labelled]
+    total = sum(sizes)
+    if total == 0:
+        return [np.zeros(0, dtype=int) for _ in labelled], 0
+    ids: dict[str, int] = {}
+    label = np.fromiter((ids.setdefault(name, len(ids)) for labels in labelled
+                         for name in labels), dtype=int, count=total)
+    solve = np.repeat(np.arange(len(labelled)), sizes)
+    position = np.arange(total)
+    # the occurrence of each mode among the modes of its label in its solve
+    order = np.lexsort((position, label, solve))
+    group = solve[order] * (int(label.max()) + 1) + label[order]
+    starts = np.concatenate([[True], group[1:] != group[:-1]])
+    first = np.maximum.accumulate(np.where(starts, position, 0))
+    occurrence = np.empty(total, dtype=int)
+    occurrence[order] = position - first
+    key = label * (int(occurrence.max()) + 1) + occurrence
+    unique, first_seen, inverse = np.unique(key, return_index=True, return_inverse=True)
+    rank = np.empty(len(unique), dtype=int)
+    rank[np.argsort(first_seen, kind="stable")] = np.arange(len(unique))
+    rows = rank[inverse.ravel()]
+    return list(np.split(rows, np.cumsum(sizes)[:-1])), len(unique)
 
 
 def _filled(f2: np.ndarray, grid: np.ndarray) -> np.ndarray:

@@ -142,7 +142,7 @@ def assess_panel(panel: Panel, modes: Sequence[Mode] | ModeArrays,
     Parameters
     ----------
     panel : Panel
-    modes : sequence of Mode, or ModeArrays
+    modes : sequence of Mode, ModeArrays, or a PanelModes
         Every mode computed (up to ``limit_hz``).
     excitations : sequence of Excitation, or ExcitationArrays
         The excitations reaching the panel.

@@ -146,6 +146,9 @@ class SolveCache:
         Open-sided incompressible eigen-solutions, by the mass matrix, the stiffness divided by
         its first entry and the symmetry blocks: the same panel at another tension (stiffness
         scaled) reuses them exactly.
+    ``spectra``
+        Wavenumber-domain transforms of the shapes of a point-quadrature family on a polar
+        grid, by the family object and the grid (tens of megabytes each: a few are kept).
 
     Parameters
     ----------
@@ -162,6 +165,7 @@ class SolveCache:
     added_mass: _Store = field(init=False, repr=False)
     rectangle_tables: _Store = field(init=False, repr=False)
     eigenpairs: _Store = field(init=False, repr=False)
+    spectra: _Store = field(init=False, repr=False)
 
     def __post_init__(self) -> None:
         self.panel_modes = _Store(self.max_panel_modes)
@@ -172,11 +176,12 @@ class SolveCache:
         self.added_mass = _Store(32)
         self.rectangle_tables = _Store(64, max_bytes=256 * 2**20, size=_table_bytes)
         self.eigenpairs = _Store(8)
+        self.spectra = _Store(4)
 
     def _stores(self) -> dict[str, _Store]:
         return {name: getattr(self, name) for name in (
             "panel_modes", "polygon_bases", "dirichlet", "neumann", "families", "added_mass",
-            "rectangle_tables", "eigenpairs")}
+            "rectangle_tables", "eigenpairs", "spectra")}
 
     def info(self) -> dict[str, StoreInfo]:
         """Hits, misses and entries of each store, by name."""

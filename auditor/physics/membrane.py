@@ -434,6 +434,19 @@ def _rectangle_some_shapes(points, indices, width, length, m, n):
                              n[indices].astype(float), np.arange(len(indices)))
 
 
+@lru_cache(maxsize=16384)
+def _rectangle_mode_names(m: int, n: int) -> tuple[str, tuple[tuple[str, int], ...]]:
+    """Label "(m,n)" and nodal lines of rectangle mode (m, n) (memoised: a large panel has
+    tens of thousands of modes, made again at every tension a remedy tries)."""
+    return f"({m},{n})", (("parallel to length", m - 1), ("parallel to width", n - 1))
+
+
+@lru_cache(maxsize=16384)
+def _circle_mode_names(m: int, n: int) -> tuple[str, tuple[tuple[str, int], ...]]:
+    """Label "(m,n)" and nodal lines (m diameters, n − 1 circles) of disc mode (m, n)."""
+    return f"({m},{n})", (("diameters", m), ("circles", n - 1))
+
+
 def rectangular_membrane_basis(tension_x, tension_y, areal_density, width, length, fmax,
                                bending_stiffness=0.0, max_modes=None) -> ModalBasis:
     """In-vacuo modal basis of a rectangular membrane (or simply supported prestressed plate).
@@ -476,15 +489,14 @@ def rectangular_membrane_basis(tension_x, tension_y, areal_density, width, lengt
     evaluate = partial(_rectangle_shapes, width=lx, length=ly, m=m, n=n,
                        distinct_m=distinct_m.astype(float), m_slot=m_slot,
                        distinct_n=distinct_n.astype(float), n_slot=n_slot)
-    mi, ni = m.tolist(), n.tolist()
+    named = list(map(_rectangle_mode_names, m.tolist(), n.tolist()))
     return ModalBasis(
         region=RectangleRegion(lx, ly),
         frequencies_hz=frequency,
-        labels=tuple(f"({a},{b})" for a, b in zip(mi, ni)),
+        labels=tuple(label for label, _ in named),
         multiplicity=np.ones(len(frequency), dtype=int),
         mean=rectangular_mode_mean(m, n),
-        nodal_lines=tuple((("parallel to length", a - 1), ("parallel to width", b - 1))
-                          for a, b in zip(mi, ni)),
+        nodal_lines=tuple(lines for _, lines in named),
         evaluate=evaluate,
         complete_to_hz=complete,
         evaluate_some=partial(_rectangle_some_shapes, width=lx, length=ly, m=m, n=n),
@@ -523,15 +535,26 @@ def bessel_zeros_below(x_max):
     if not x_max > 0.0:
         empty_int = np.empty(0, dtype=np.int64)
         return empty_int, empty_int, np.empty(0)
+    order, rank, zero, _ = _zeros_and_slopes_below(x_max)
+    return order, rank, zero
+
+
+def _zeros_and_slopes_below(x_max: float):
+    """As :func:`bessel_zeros_below` (``x_max`` > 0), with ``J_{m+1}(j_{m,n})`` of each zero
+    (= −J_m'(j_{m,n}), the scale of its mode shape)."""
     bound = 2.0 ** math.ceil(math.log2(max(x_max, 1.0)))
-    order, rank, zero = _bessel_zeros_below_cached(bound)
+    order, rank, zero, slope = _bessel_zeros_below_cached(bound)
     keep = zero <= x_max
-    return order[keep], rank[keep], zero[keep]
+    return order[keep], rank[keep], zero[keep], slope[keep]
 
 
 @lru_cache(maxsize=32)
 def _bessel_zeros_below_cached(bound: float):
-    return _bessel_zeros_below(bound)
+    order, rank, zero = _bessel_zeros_below(bound)
+    slope = special.jv(order + 1.0, zero)
+    for array in (order, rank, zero, slope):
+        array.setflags(write=False)   # memoised (a pure function of the bound)
+    return order, rank, zero, slope
 
 
 def _bessel_zeros_below(x_max):
@@ -678,25 +701,27 @@ def _circle_spectrum(tension, areal_density, radius, fmax, max_modes):
         # Grow the search until it holds max_modes zeros.
         x_max = math.pi * (math.sqrt(max_modes) + 2.0)
         while True:
-            order, rank, zero = bessel_zeros_below(x_max)
+            order, rank, zero, slope = _zeros_and_slopes_below(x_max)
             if order.size >= max_modes:
                 break
             x_max *= 1.5
     else:
         x_max = fmax / to_frequency
-        order, rank, zero = bessel_zeros_below(x_max * (1.0 + _BOUND_SLACK))
+        order, rank, zero, slope = _zeros_and_slopes_below(x_max * (1.0 + _BOUND_SLACK))
     frequency = zero * to_frequency
     keep = frequency <= fmax
     order, rank, zero, frequency = order[keep], rank[keep], zero[keep], frequency[keep]
+    slope = slope[keep]
     ascending = np.argsort(frequency, kind="stable")
     if max_modes is not None:
         ascending = ascending[:max_modes]
-    return frequency[ascending], order[ascending], rank[ascending], zero[ascending]
+    return (frequency[ascending], order[ascending], rank[ascending], zero[ascending],
+            slope[ascending])
 
 
 def _empty_circle():
     none = np.empty(0, dtype=np.int64)
-    return np.empty(0), none, none.copy(), np.empty(0)
+    return np.empty(0), none, none.copy(), np.empty(0), np.empty(0)
 
 
 def circular_membrane_frequencies(tension, areal_density, radius, fmax, max_modes=None):
@@ -731,7 +756,7 @@ def circular_membrane_frequencies(tension, areal_density, radius, fmax, max_mode
     """
     checked = _check_circle(tension, areal_density, radius)
     limit, cap = _frequency_limit(fmax, max_modes)
-    frequency, m, n, _ = _circle_spectrum(*checked, limit, cap)
+    frequency, m, n, _, _ = _circle_spectrum(*checked, limit, cap)
     return frequency, m, n, np.where(m >= 1, 2, 1)
 
 
@@ -782,24 +807,25 @@ def circular_membrane_basis(tension, areal_density, radius, fmax, max_modes=None
     """
     checked = _check_circle(tension, areal_density, radius)
     limit, cap = _frequency_limit(fmax, max_modes)
-    frequency, m, n, zero = _circle_spectrum(*checked, limit, None if cap is None else cap + 1)
+    frequency, m, n, zero, next_order = _circle_spectrum(*checked, limit,
+                                                         None if cap is None else cap + 1)
     complete = limit
     if cap is not None and len(frequency) > cap:
         complete = min(limit, complete_below(frequency, cap))
         frequency, m, n, zero = frequency[:cap], m[:cap], n[:cap], zero[:cap]
+        next_order = next_order[:cap]
     a = checked[2]
-    next_order = special.jv(m + 1.0, zero)
     scale = np.where(m == 0, 1.0, math.sqrt(2.0)) / np.abs(next_order)
     mean = np.where(m == 0, 2.0 * np.sign(next_order) / zero, 0.0)
     evaluate = partial(_circle_shapes, radius=a, m=m.astype(float), zero=zero, scale=scale)
-    pairs = list(zip(m.tolist(), n.tolist()))
+    named = list(map(_circle_mode_names, m.tolist(), n.tolist()))
     return ModalBasis(
         region=CircleRegion(a),
         frequencies_hz=frequency,
-        labels=tuple(f"({d},{r})" for d, r in pairs),
+        labels=tuple(label for label, _ in named),
         multiplicity=np.where(m >= 1, 2, 1),
         mean=mean,
-        nodal_lines=tuple((("diameters", d), ("circles", r - 1)) for d, r in pairs),
+        nodal_lines=tuple(lines for _, lines in named),
         evaluate=evaluate,
         complete_to_hz=complete,
         evaluate_some=partial(_circle_some_shapes, radius=a, m=m.astype(float), zero=zero,

@@ -15,6 +15,7 @@ from __future__ import annotations
 import dataclasses
 import math
 from dataclasses import dataclass, field
+from functools import cached_property
 from typing import Callable
 
 import numpy as np
@@ -53,14 +54,23 @@ class GeometryError(ValueError):
 
 @dataclass(frozen=True, eq=False)
 class PanelModes:
-    """A panel's reported modes and what is needed to draw them.
+    """A panel's reported modes, as arrays, and what is needed to draw them.
+
+    The modes are held as arrays (a large film has tens of thousands); their ``Mode`` records
+    are made on first use of :attr:`modes` (a scan over tension never needs them).
 
     Parameters
     ----------
-    modes : tuple of Mode
-        Ascending in frequency, f ≤ fmax, at most ``max_modes`` when a cap was asked for.
+    frequency_hz : ndarray (n,)  [Hz]
+        Ascending, f ≤ fmax, at most ``max_modes`` when a cap was asked for.
+    loss_factor : ndarray (n,)  [-]
+    participation : ndarray (n,)  [-]
+    in_vacuo_hz : ndarray (n,)  [Hz]
+    index : ndarray of int (n,)
+        The basis mode each is (in vacuo, and above the coupled basis) or is dominated by.
     basis : ModalBasis
-        The in-vacuo basis the modes are expressed in.
+        The in-vacuo basis the modes are expressed in (labels, multiplicity and nodal lines
+        of mode k are those of basis mode ``index[k]``).
     coordinates : ndarray (n_coupled_basis, n_coupled_modes)
         Coordinates of the modes solved with the full coupling through the air, in the first
         ``n_coupled_basis`` modes of ``basis`` (empty in vacuo).
@@ -74,18 +84,44 @@ class PanelModes:
         (the finite-element basis size ``FEM_MAX_MODES``, the reach of an air-loaded basis,
         or the ``max_modes`` cap, which stops it at the last mode listed). Modes above it may
         be listed, but the list is not complete there: above it the panel is not assessed.
-    columns : ndarray of int (n_modes,)
+    columns : ndarray of int (n,)
         For mode k, the column of ``coordinates`` holding it, or −1 when it is the single
-        basis mode ``modes[k].index`` (in vacuo, and air-loaded modes above the coupled basis).
+        basis mode ``index[k]`` (in vacuo, and air-loaded modes above the coupled basis).
     """
 
-    modes: tuple[Mode, ...]
+    frequency_hz: np.ndarray
+    loss_factor: np.ndarray
+    participation: np.ndarray
+    in_vacuo_hz: np.ndarray
+    index: np.ndarray
     basis: ModalBasis
     coordinates: np.ndarray
     loading: str
     notes: tuple[str, ...] = ()
     complete_to_hz: float = 0.0
     columns: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=int), repr=False)
+
+    def __len__(self) -> int:
+        return len(self.frequency_hz)
+
+    @cached_property
+    def labels(self) -> tuple[str, ...]:
+        """Each mode's label (its basis mode's)."""
+        names = self.basis.labels
+        return tuple(names[i] for i in self.index.tolist())
+
+    @cached_property
+    def modes(self) -> tuple[Mode, ...]:
+        """The modes as ``Mode`` records, ascending in frequency (made once, on first use)."""
+        basis = self.basis
+        multiplicity = np.asarray(basis.multiplicity)
+        return tuple(
+            Mode(label=basis.labels[i], frequency_hz=f, multiplicity=int(multiplicity[i]),
+                 participation=p, nodal_lines=basis.nodal_lines[i], loss_factor=eta,
+                 in_vacuo_hz=f0, index=i)
+            for i, f, p, eta, f0 in zip(
+                self.index.tolist(), self.frequency_hz.tolist(), self.participation.tolist(),
+                self.loss_factor.tolist(), self.in_vacuo_hz.tolist()))
 
     def vector(self, k: int) -> np.ndarray:
         """Coordinates of reported mode ``k`` in ``basis`` (n_basis,)."""
@@ -94,16 +130,16 @@ class PanelModes:
         if column >= 0:
             out[:self.coordinates.shape[0]] = self.coordinates[:, column]
         else:
-            out[self.modes[k].index] = 1.0
+            out[int(self.index[k])] = 1.0
         return out
 
     @property
     def vectors(self) -> np.ndarray:
         """Every reported mode's coordinates in ``basis`` (n_basis, n_modes), built on each
         call: n_basis × n_modes numbers, large for a large panel (prefer :meth:`vector`)."""
-        if not self.modes:
+        if not len(self):
             return np.zeros((len(self.basis), 0))
-        return np.column_stack([self.vector(k) for k in range(len(self.modes))])
+        return np.column_stack([self.vector(k) for k in range(len(self))])
 
     def shape_grid(self, k: int, resolution: int = 48) -> ShapeGrid:
         """Sample reported mode ``k`` on a grid for drawing (NaN outside, max |φ| = 1)."""
@@ -123,7 +159,7 @@ class PanelModes:
             phi = self.basis.shapes(points[inside], used) @ vector[used]
             peak = np.max(np.abs(phi)) if len(phi) else 0.0
             values[inside] = phi / peak if peak > 0 else phi
-        return ShapeGrid(label=self.modes[k].label, x=x, y=y, values=values.reshape(ny, nx))
+        return ShapeGrid(label=self.labels[k], x=x, y=y, values=values.reshape(ny, nx))
 
 
 def _circle_as_polygon(x: float, y: float, diameter: float, sides: int = 48):
@@ -343,27 +379,17 @@ def _in_vacuo(panel: Panel, build, notes, fmax: float, cap: int | None,
     keep = below[:cap]
     complete = min(fmax, basis.complete_to, complete_below(vacuum[below], len(keep)))
     eta = structural_loss_factor(panel.material, panel.loss_factor)
-    modes = tuple(
-        Mode(
-            label=basis.labels[i],
-            frequency_hz=float(vacuum[i]),
-            multiplicity=int(basis.multiplicity[i]),
-            participation=float(basis.mean[i] ** 2),
-            nodal_lines=basis.nodal_lines[i],
-            loss_factor=eta,
-            in_vacuo_hz=float(vacuum[i]),
-            index=int(i),
-        )
-        for i in keep
-    )
+    frequency = vacuum[keep].astype(float)
+    participation = np.asarray(basis.mean, float)[keep] ** 2
     if open_mesh:
         loading = fluid.describe_loading(panel.room_side, panel.plenum_side, panel.cavity_depth,
                                          panel.airflow_resistance, panel.material)
     else:
         loading = ("In vacuo: no air on either side (room side and plenum side 'none'); "
                    "structural loss factor only.")
-    return PanelModes(modes, basis, np.zeros((0, 0)), loading, notes, float(complete),
-                      np.full(len(modes), -1, dtype=int))
+    return PanelModes(frequency, np.full(len(keep), float(eta)), participation, frequency.copy(),
+                      keep.astype(int), basis, np.zeros((0, 0)), loading, notes,
+                      float(complete), np.full(len(keep), -1, dtype=int))
 
 
 def _loaded(build, panel: Panel, fmax: float, cap: int | None, air_density: float,
@@ -431,45 +457,34 @@ def _in_air(panel: Panel, build, notes, fmax: float, cap: int | None, air_densit
                 structural_loss_factor=eta, air_density=air_density,
                 speed_of_sound=speed_of_sound, cache=cache)
             basis = extended
-    coupled = [
-        (float(loaded.frequencies_hz[k]), Mode(
-            label=loaded.labels[k],
-            frequency_hz=float(loaded.frequencies_hz[k]),
-            multiplicity=int(loaded.multiplicity[k]),
-            participation=float(loaded.participation[k]),
-            nodal_lines=loaded.basis.nodal_lines[int(loaded.dominant[k])],
-            loss_factor=float(loaded.loss_factor[k]),
-            in_vacuo_hz=float(loaded.in_vacuo_hz[k]),
-            index=int(loaded.dominant[k]),
-        ), k)
-        for k in range(len(loaded))
-    ]
-    entries = list(coupled)
+    # Every mode as arrays: those coupled through the air (column k of the loaded vectors),
+    # then those above the coupled basis (column −1), ascending in frequency.
+    frequency = [np.asarray(loaded.frequencies_hz, float)]
+    loss = [np.asarray(loaded.loss_factor, float)]
+    participation = [np.asarray(loaded.participation, float)]
+    in_vacuo = [np.asarray(loaded.in_vacuo_hz, float)]
+    index = [np.asarray(loaded.dominant, dtype=int)]
+    columns = [np.arange(len(loaded), dtype=int)]
     loading = loaded.model
     if estimated is not None:
         complete = estimated.complete_to_hz
-        for j, i in enumerate(estimated.indices):
-            i = int(i)
-            entries.append((float(estimated.frequencies_hz[j]), Mode(
-                label=basis.labels[i],
-                frequency_hz=float(estimated.frequencies_hz[j]),
-                multiplicity=int(basis.multiplicity[i]),
-                participation=float(basis.mean[i] ** 2),
-                nodal_lines=basis.nodal_lines[i],
-                loss_factor=float(estimated.loss_factor[j]),
-                in_vacuo_hz=float(basis.frequencies_hz[i]),
-                index=i,
-            ), -1))
-        if len(estimated.indices):
+        above = np.asarray(estimated.indices, dtype=int)
+        frequency.append(np.asarray(estimated.frequencies_hz, float))
+        loss.append(np.asarray(estimated.loss_factor, float))
+        participation.append(np.asarray(basis.mean, float)[above] ** 2)
+        in_vacuo.append(np.asarray(basis.frequencies_hz, float)[above])
+        index.append(above)
+        columns.append(np.full(len(above), -1, dtype=int))
+        if len(above):
             loading += (f" Modes above the {len(loaded.basis)} coupled through the air: each "
                         "loaded by its own air mass (Rayleigh self term, or ρ0/k on a "
                         "polygon), within about 1 % (2 % on a polygon); structural and porous "
                         "losses only.")
-    entries.sort(key=lambda entry: entry[0])
-    frequencies = np.array([entry[0] for entry in entries])
-    kept = entries[:cap]
-    complete = min(fmax, complete, complete_below(frequencies, len(kept)))
-    modes = tuple(entry[1] for entry in kept)
-    columns = np.array([entry[2] for entry in kept], dtype=int)
-    return PanelModes(modes, basis, np.asarray(loaded.vectors), loading, notes, float(complete),
-                      columns)
+    frequencies = np.concatenate(frequency)
+    ascending = np.argsort(frequencies, kind="stable")
+    order = ascending[:cap]
+    complete = min(fmax, complete, complete_below(frequencies[ascending], len(order)))
+    return PanelModes(frequencies[order], np.concatenate(loss)[order],
+                      np.concatenate(participation)[order], np.concatenate(in_vacuo)[order],
+                      np.concatenate(index)[order], basis, np.asarray(loaded.vectors), loading,
+                      notes, float(complete), np.concatenate(columns)[order])
