@@ -1543,16 +1543,32 @@ class _System:
                                                      rows[:, coupled], self.cavity.depth)
         return sub
 
+    #: Up to which frequency [Hz] the cavity's matrices are wanted often (the modes being
+    #: followed): set by the solver; within it they come from :class:`_CavitySeries`.
+    series_reach_hz: float = 0.0
+    _series: dict = field(default_factory=dict, repr=False)
+
     def cavity_stack(self, frequencies_hz: np.ndarray, index):
-        """:meth:`cavity_matrices` at several frequencies: stiffness and mass (F, n, n)."""
+        """:meth:`cavity_matrices` at several frequencies: stiffness and mass (F, n, n).
+
+        Below ``series_reach_hz`` the mass of the cavity modes far above the air's
+        wavenumber comes from its Chebyshev series in k0² (:class:`_CavitySeries`, within
+        1e-11 of the direct sum), the others' terms directly.
+        """
         count, n = len(frequencies_hz), len(index)
         if self.cavity is None:
             return np.zeros((count, n, n)), np.zeros((count, n, n))
         cavity = self._cavity_of(index)
         k0 = 2 * np.pi * np.asarray(frequencies_hz, float) / self.speed_of_sound
-        s, mu = _cavity_splits(cavity, k0, self.air_density, self.speed_of_sound)
-        L = cavity.coupling
-        return (L[None] * s[:, None, :]) @ L.T, (L[None] * mu[:, None, :]) @ L.T
+        top = 2 * np.pi * self.series_reach_hz / self.speed_of_sound
+        if top > 0 and len(k0) and float(k0.max()) <= top:
+            key = (np.asarray(index).tobytes(), top)
+            series = self._series.get(key)
+            if series is None:
+                series = self._series[key] = _CavitySeries.of(
+                    cavity, top, self.air_density, self.speed_of_sound)
+            return series.matrices(k0, self.air_density, self.speed_of_sound)
+        return _cavity_sums(cavity, k0, self.air_density, self.speed_of_sound)
 
     def cavity_matrices(self, frequency_hz: float, index):
         if self.cavity is None:
@@ -1563,6 +1579,74 @@ class _System:
         s, mu = _cavity_split(cavity, k0, self.air_density, self.speed_of_sound)
         L = cavity.coupling
         return (L * s) @ L.T, (L * mu) @ L.T
+
+
+def _cavity_sums(cavity: _Cavity, k0: np.ndarray, air_density: float,
+                 speed_of_sound: float) -> tuple[np.ndarray, np.ndarray]:
+    """``Σ_j s_j(k0) L_j L_jᵀ`` and ``Σ_j μ_j(k0) L_j L_jᵀ`` at each air wavenumber (F, n, n)."""
+    count, (n, modes) = len(k0), cavity.coupling.shape
+    s, mu = _cavity_splits(cavity, k0, air_density, speed_of_sound)
+    L = cavity.coupling
+    stiffness = ((L[None] * s[:, None, :]).reshape(count * n, modes) @ L.T).reshape(count, n, n)
+    mass = ((L[None] * mu[:, None, :]).reshape(count * n, modes) @ L.T).reshape(count, n, n)
+    return stiffness, mass
+
+
+@dataclass(frozen=True, eq=False)
+class _CavitySeries:
+    """A cavity's matrices for air wavenumbers k0 ≤ ``top``, fast.
+
+    The cavity modes with k_j ≥ ``FAR``·top are mass-like throughout (κ_j² = k_j² − k0² > 0),
+    and their mass ``ρ0 coth(κ_j d)/κ_j`` is analytic in k0² beyond [0, top²] (its nearest
+    singularity at k0² = k_j²), so a Chebyshev series in k0² holds it to rounding; their
+    summed matrix is then
+    ``Σ_r T_r(t) P_r`` with the ``P_r`` made once. The modes below (the uniform mode and the
+    lowest few) are summed directly at each k0.
+
+    References
+    ----------
+    .. [1] L. N. Trefethen, *Approximation Theory and Approximation Practice*, SIAM, 2013,
+       ch. 8 (convergence of Chebyshev interpolants of analytic functions, Bernstein
+       ellipses).
+    """
+
+    near: _Cavity
+    terms: np.ndarray        # (R + 1, n, n)
+    top: float               # [rad/m]
+
+    #: Modes from this multiple of ``top`` up are taken by their series: mapped to [−1, 1],
+    #: the singularity at k0² ≥ 1.5625 top² lies on or beyond the Bernstein ellipse of
+    #: parameter 4, so ``TERMS`` = 32 terms leave below 4⁻³² ≈ 1e-19 of the mass.
+    FAR = 1.25
+    TERMS = 32
+
+    @classmethod
+    def of(cls, cavity: _Cavity, top: float, air_density: float,
+           speed_of_sound: float) -> _CavitySeries:
+        far = cavity.wavenumbers >= cls.FAR * top
+        near = _Cavity(cavity.wavenumbers[~far], cavity.coupling[:, ~far], cavity.depth)
+        remote = _Cavity(cavity.wavenumbers[far], cavity.coupling[:, far], cavity.depth)
+        count = cls.TERMS
+        t = np.cos(np.pi * (np.arange(count) + 0.5) / count)             # Chebyshev nodes
+        k0 = top * np.sqrt(0.5 * (t + 1.0))
+        _, mass = _cavity_splits(remote, k0, air_density, speed_of_sound)   # (count, J)
+        basis = np.cos(np.outer(np.arange(count), np.arccos(t)))          # T_r(t_i)
+        coefficients = (2.0 / count) * basis @ mass                       # (count, J)
+        coefficients[0] *= 0.5
+        L = remote.coupling
+        n = L.shape[0]
+        terms = ((L[None] * coefficients[:, None, :]).reshape(count * n, -1) @ L.T
+                 ).reshape(count, n, n)
+        return cls(near, terms, float(top))
+
+    def matrices(self, k0: np.ndarray, air_density: float,
+                 speed_of_sound: float) -> tuple[np.ndarray, np.ndarray]:
+        stiffness, mass = _cavity_sums(self.near, k0, air_density, speed_of_sound)
+        t = 2.0 * (np.asarray(k0, float) / self.top) ** 2 - 1.0
+        weights = np.cos(np.outer(np.arccos(np.clip(t, -1.0, 1.0)), np.arange(len(self.terms))))
+        n = self.terms.shape[1]
+        mass = mass + (weights @ self.terms.reshape(len(self.terms), n * n)).reshape(-1, n, n)
+        return stiffness, mass
 
 
 def _kappa_grid(family, top_wavenumber: float) -> np.ndarray:
@@ -1727,13 +1811,9 @@ def _porous_operators(system: _System, block, frequencies: np.ndarray):
     mass[:, panel, panel] = system.structural_mass * np.eye(size)
     mass[:, air_part, air_part] = system.air_mass[np.ix_(block, block)]
     if system.cavity is not None:
-        cavity = system._cavity_of(block)
-        springs, masses = _cavity_splits(
-            cavity, 2 * np.pi * np.asarray(frequencies, float) / system.speed_of_sound,
-            system.air_density, system.speed_of_sound)
-        coupling = cavity.coupling
-        stiffness[:, air_part, air_part] += (coupling[None] * springs[:, None, :]) @ coupling.T
-        mass[:, air_part, air_part] += (coupling[None] * masses[:, None, :]) @ coupling.T
+        springs, masses = system.cavity_stack(np.asarray(frequencies, float), block)
+        stiffness[:, air_part, air_part] += springs
+        mass[:, air_part, air_part] += masses
     eye = system.resistance * np.eye(size)
     damping = np.block([[eye, -eye], [-eye, eye]])
     return stiffness, mass, damping
@@ -1820,6 +1900,9 @@ def _porous_modes(system: _System, blocks, f_reach: float, count: int) -> list[_
     # the lowest ``count`` over all blocks (the caller's count has its own margin)
     found.sort(key=lambda item: item[0].real)
     found = found[:count]
+    # the cavity's matrices are wanted near these roots (with a margin)
+    system.series_reach_hz = 1.25 * max((item[0].real for item in found), default=0.0) \
+        / (2 * np.pi)
     refined = {}
     for number, block in enumerate(blocks):
         mine = [j for j, item in enumerate(found) if item[1] is block]
@@ -2205,6 +2288,9 @@ def loaded_modes(
         else:
             reach = 1.0 if system.resistance is not None else 1.5
             candidates = np.flatnonzero(frequencies <= reach * limit)[:spare]
+            # the cavity's matrices are wanted near the candidates (with a margin)
+            system.series_reach_hz = 1.25 * float(frequencies[candidates].max()) \
+                if len(candidates) else 0.0
             followed = _follow_modes(system, blocks, vectors[:, candidates],
                                      frequencies[candidates])
     f, eta_total, eta_rad = _compressible_correction(system, followed, cache)
