@@ -115,3 +115,13 @@ def test_every_resource_file_ships_in_the_wheel(folder):
         patterns = package_data.get(package, [])
         assert any(fnmatch.fnmatch(path.name, p) for p in patterns), (
             f"{relative} is not in the package data of {package}")
+
+
+def test_every_code_package_ships_in_the_wheel():
+    """Each folder of the package with an __init__.py is listed for the build (the list is
+    explicit because rules/ and templates/ are mapped in beside the code)."""
+    with open(ROOT / "pyproject.toml", "rb") as handle:
+        listed = set(tomllib.load(handle)["tool"]["setuptools"]["packages"])
+    found = {".".join(p.parent.relative_to(ROOT).parts)
+             for p in (ROOT / "auditor").rglob("__init__.py")}
+    assert found <= listed, f"not listed in pyproject.toml: {sorted(found - listed)}"
