@@ -20,18 +20,19 @@ The steps:
 4. **Attribution**: each panel, in schedule order, takes its type's judgement in its tone
    group, with its own id.
 
-Types are independent, so step 3 runs in a process pool (``jobs``; each worker process keeps
-its own solve cache for the types it is given) and the results are put back in schedule
-order: the result is the same, bit for bit, for any number of jobs and whatever ran before
-in the process (one :class:`auditor.physics.cache.SolveCache` per audit, or per worker, and
-nothing else kept between calls).
+Types are independent, so step 3 runs in a process pool (``jobs``): each task is one panel
+type, or the types of one finite-element outline (which share its basis), judged with a
+:class:`auditor.physics.cache.SolveCache` made for the task and dropped after it; the
+results are put back in schedule order in the calling process, which also reports progress.
+The result is the same, bit for bit, for any number of jobs and whatever ran before in the
+process: every cache entry is a pure function of its key, and nothing else is kept between
+calls.
 """
 
 from __future__ import annotations
 
 import dataclasses
 import datetime as _dt
-import math
 import multiprocessing
 import os
 import sys
@@ -45,11 +46,22 @@ import numpy as np
 
 from auditor import __version__
 from auditor.excitation import excitations_for_schedule, mount_of
+from auditor.judgement.response import weyl_mode_count
 from auditor.judgement.screening import ExcitationArrays, assessment_limit_hz, reaching
 from auditor.judgement.verdict import PanelAssessment, assess_panel, panel_area
 from auditor.model import (
-    AuditResult, Equipment, Excitation, Finding, Mode, Panel, PanelResult, Remedy, RowProblem,
-    Schedule, ShapeGrid, finding_rank,
+    AuditResult,
+    Equipment,
+    Excitation,
+    Finding,
+    Mode,
+    Panel,
+    PanelResult,
+    Remedy,
+    RowProblem,
+    Schedule,
+    ShapeGrid,
+    finding_rank,
 )
 from auditor.physics.cache import SolveCache
 from auditor.physics.modes import GeometryError, PanelModes, modes_for, physics_signature
@@ -137,9 +149,10 @@ class PanelType:
         else:
             weight *= (2.0 if p.plenum_side == "sealed" else 1.0) * (
                 2.0 if p.airflow_resistance is not None else 1.0)
-        tension = max((p.tension_x * p.tension_y) ** 0.5, 1e-9)
-        modes = panel_area(p) * math.pi * self.solve_to_hz**2 * p.areal_density / tension
-        return weight * (1.0 + min(modes, 1e6) / 20000.0)
+        modes = weyl_mode_count(self.solve_to_hz, panel_area(p), p.areal_density,
+                                max((p.tension_x * p.tension_y) ** 0.5, 1e-9),
+                                p.bending_stiffness)
+        return weight * (1.0 + min(float(modes), 1e6) / 50000.0)
 
 
 #: The panel fields blanked in a type's representative (see :class:`PanelType`).
@@ -275,22 +288,14 @@ def _judge_type(work: _TypeWork, ruleset: RuleSet, air_density: float,
     return work.number, tuple(out)
 
 
-#: The solve cache of a worker process: made by the pool's initialiser for one audit (each
-#: audit starts its own pool), so workers share nothing between audits.
-_worker_cache: SolveCache | None = None
-
-
-def _start_worker() -> None:
-    global _worker_cache
-    _worker_cache = SolveCache()
-
-
-def _judge_batch(batch: tuple[_TypeWork, ...], ruleset: RuleSet, air_density: float,
-                 speed_of_sound: float, with_shapes: bool):
-    """A worker's task: several types, judged with the worker's solve cache."""
-    cache = _worker_cache if _worker_cache is not None else SolveCache()
+def _judge_family(family: tuple[_TypeWork, ...], ruleset: RuleSet, air_density: float,
+                  speed_of_sound: float, with_shapes: bool):
+    """One task: panel types that share their geometry (one outline at several tensions and
+    densities, one rectangle's aspect ratio), judged with one solve cache made for them
+    (finite-element bases and air-loading integrals are shared; the cache is dropped after)."""
+    cache = SolveCache()
     return [_judge_type(work, ruleset, air_density, speed_of_sound, with_shapes, cache)
-            for work in batch]
+            for work in family]
 
 
 def resolved_jobs(jobs: int | None) -> int:
@@ -308,18 +313,36 @@ def resolved_jobs(jobs: int | None) -> int:
     return int(jobs)
 
 
-def _batches(works: list[_TypeWork], costs: list[float], jobs: int) -> list[tuple]:
-    """The types as pool tasks, dearest first: each dear type alone, the cheap ones grouped
-    in tasks of at least a 64th of a worker's share (so that a schedule of hundreds of
-    cheap types is not sent one by one); the pool hands each task to the next free worker."""
-    order = sorted(range(len(works)), key=lambda k: (-costs[k], k))
+def _geometry(panel: Panel) -> tuple:
+    """What panel types must share to save much in the physics' cache: a finite-element
+    outline (its basis at one tension ratio, and the air's integrals over it, serve every
+    tension and density: a second or more each). Analytic shapes share little beyond a
+    table of a few tens of milliseconds, and are judged apart (the load spreads better)."""
+    if panel.shape == "polygon" or panel.cutouts or (
+            panel.shape == "circle" and panel.tension_x != panel.tension_y):
+        return ("outline", panel.shape, panel.outline, panel.width, panel.length,
+                panel.diameter, panel.cutouts, round(panel.tension_y / panel.tension_x, 9)
+                if panel.tension_x else None)
+    return ("type", physics_signature(panel), panel.max_tension)
+
+
+def _tasks(works: list[_TypeWork], costs: list[float], jobs: int) -> list[tuple]:
+    """The types as tasks, dearest first: the types of one geometry together (see
+    :func:`_geometry`), cheap families gathered in tasks of at least a 64th of a worker's
+    share (so that hundreds of cheap types are not sent one by one); a pool hands each task
+    to the next free worker."""
+    families: dict[tuple, list[int]] = {}
+    for k, work in enumerate(works):
+        families.setdefault(_geometry(work.panel), []).append(k)
+    weight = {key: sum(costs[k] for k in members) for key, members in families.items()}
+    order = sorted(families, key=lambda key: (-weight[key], families[key][0]))
     least = sum(costs) / (64.0 * jobs)
     tasks: list[tuple] = []
     current: list[_TypeWork] = []
     gathered = 0.0
-    for k in order:
-        current.append(works[k])
-        gathered += costs[k]
+    for key in order:
+        current.extend(works[k] for k in families[key])
+        gathered += weight[key]
         if gathered >= least:
             tasks.append(tuple(current))
             current, gathered = [], 0.0
@@ -329,7 +352,7 @@ def _batches(works: list[_TypeWork], costs: list[float], jobs: int) -> list[tupl
 
 
 def _pool(jobs: int) -> ProcessPoolExecutor:
-    """A process pool of ``jobs`` workers, each with its own solve cache.
+    """A process pool of ``jobs`` workers (each task makes its own solve cache).
 
     On Linux, when this process runs no other thread, workers are forked from it (nothing
     to import again, and the calling script is not run again); otherwise (a progress bar's
@@ -347,8 +370,7 @@ def _pool(jobs: int) -> ProcessPoolExecutor:
         context.set_forkserver_preload(["auditor.audit"])
     else:
         context = multiprocessing.get_context("spawn")
-    return ProcessPoolExecutor(max_workers=jobs, mp_context=context,
-                               initializer=_start_worker)
+    return ProcessPoolExecutor(max_workers=jobs, mp_context=context)
 
 
 def _judge_all(types: list[PanelType], groups: list[ToneGroup], ruleset: RuleSet,
@@ -364,15 +386,14 @@ def _judge_all(types: list[PanelType], groups: list[ToneGroup], ruleset: RuleSet
             judged[number] = dict(outcome)
             progress(types[number].count)
 
-    if jobs <= 1 or len(works) <= 1:
-        cache = SolveCache()
-        for work in works:
-            take([_judge_type(work, ruleset, air_density, speed_of_sound, with_shapes, cache)])
+    tasks = _tasks(works, [t.cost() for t in types], jobs)
+    if jobs <= 1 or len(tasks) <= 1:
+        for task in tasks:
+            take(_judge_family(task, ruleset, air_density, speed_of_sound, with_shapes))
         return judged
-    batches = _batches(works, [t.cost() for t in types], jobs)
-    with _pool(min(jobs, len(batches))) as pool:
-        pending = {pool.submit(_judge_batch, batch, ruleset, air_density, speed_of_sound,
-                               with_shapes) for batch in batches}
+    with _pool(min(jobs, len(tasks))) as pool:
+        pending = {pool.submit(_judge_family, task, ruleset, air_density, speed_of_sound,
+                               with_shapes) for task in tasks}
         while pending:
             done, pending = wait(pending, return_when=FIRST_COMPLETED)
             for future in done:

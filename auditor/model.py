@@ -249,7 +249,7 @@ class Schedule:
         return tuple(p for p in self.problems if p.severity == "error")
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, slots=True)
 class Mode:
     """One natural mode of a panel, as reported.
 
@@ -435,7 +435,7 @@ class Remedy:
     cautions: int = 0
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, slots=True)
 class Finding:
     """A (mode, excitation) pair that matters to the rule set.
 

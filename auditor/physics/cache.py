@@ -140,8 +140,8 @@ class SolveCache:
         shape object.
     ``rectangle_tables``
         Normalised added-mass tables of the rectangle and their diagonals (the self terms of
-        :mod:`auditor.physics.uncoupled`), by aspect ratio and table size (about 256 MB at
-        most in all).
+        :mod:`auditor.physics.uncoupled`), by aspect ratio and table size (64 MB at most in
+        all).
     ``eigenpairs``
         Open-sided incompressible eigen-solutions, by the mass matrix, the stiffness divided by
         its first entry and the symmetry blocks: the same panel at another tension (stiffness
@@ -153,10 +153,11 @@ class SolveCache:
     Parameters
     ----------
     max_panel_modes : int
-        Most panel solutions kept (the least recently used are forgotten first).
+        Most panel solutions kept (the least recently used are forgotten first): a panel
+        type is judged in all its tone groups, and its remedy scanned, before the next.
     """
 
-    max_panel_modes: int = 4096
+    max_panel_modes: int = 32
     panel_modes: _Store = field(init=False, repr=False)
     polygon_bases: _Store = field(init=False, repr=False)
     dirichlet: _Store = field(init=False, repr=False)
@@ -168,13 +169,17 @@ class SolveCache:
     spectra: _Store = field(init=False, repr=False)
 
     def __post_init__(self) -> None:
+        # Bounds by entry count, sized for the work that shares them (one panel type and its
+        # remedy scan at a time; one outline at several tensions) and for memory: a
+        # finite-element solve of 128 modes holds some 10 MB, a point-quadrature family or
+        # spectrum a few to tens of MB, a coupled rectangle table up to about 20 MB.
         self.panel_modes = _Store(self.max_panel_modes)
-        self.polygon_bases = _Store(256)
-        self.dirichlet = _Store(128)
-        self.neumann = _Store(64)
-        self.families = _Store(64)
-        self.added_mass = _Store(32)
-        self.rectangle_tables = _Store(64, max_bytes=256 * 2**20, size=_table_bytes)
+        self.polygon_bases = _Store(16)
+        self.dirichlet = _Store(8)
+        self.neumann = _Store(4)
+        self.families = _Store(32)
+        self.added_mass = _Store(16)
+        self.rectangle_tables = _Store(64, max_bytes=64 * 2**20, size=_table_bytes)
         self.eigenpairs = _Store(8)
         self.spectra = _Store(4)
 

@@ -548,12 +548,17 @@ class _P2Space:
             distance = np.abs(fields) / (total / np.maximum(count, 1))
         return np.nan_to_num(distance, nan=0.0, posinf=np.inf), spacing
 
-    def nodal_domain_counts(self, fields: np.ndarray) -> tuple[int, ...]:
-        """Nodal domains of each column of ``fields`` (see :meth:`nodal_domains`)."""
-        distance, spacing = self._zero_set_distance(fields)
-        return tuple(
-            self.nodal_domains(fields[:, m], distance[:, m], spacing) for m in range(fields.shape[1])
-        )
+    def nodal_domain_counts(self, fields: np.ndarray, chunk: int = 16) -> tuple[int, ...]:
+        """Nodal domains of each column of ``fields`` (see :meth:`nodal_domains`), ``chunk``
+        columns at a time (the gradients of every column at every element node at once would
+        take tens of megabytes for a hundred modes)."""
+        counts: list[int] = []
+        for start in range(0, fields.shape[1], chunk):
+            part = fields[:, start:start + chunk]
+            distance, spacing = self._zero_set_distance(part)
+            counts.extend(self.nodal_domains(part[:, m], distance[:, m], spacing)
+                          for m in range(part.shape[1]))
+        return tuple(counts)
 
     def nodal_domains(self, field: np.ndarray, distance: np.ndarray, spacing: np.ndarray) -> int:
         """Connected regions of one sign of a field, on the 4-to-1 sub-triangulation of the P2 nodes.

@@ -1037,14 +1037,13 @@ def _point_spectra(family: _Points, kappa: np.ndarray, count: int):
                 stop += 1
         else:
             step = 0.0
-        angle = kappa[j] * projection
-        real, imag = np.cos(angle), np.sin(angle)
-        turn_cos, turn_sin = np.cos(step * projection), np.sin(step * projection)
+        phase = np.exp(1j * kappa[j] * projection)
+        turn = np.exp(1j * step * projection)
         for node in range(j, stop):
             if node > j:
-                real, imag = real * turn_cos - imag * turn_sin, real * turn_sin + imag * turn_cos
-            cosines[:, :, node] = (real @ weighted).T
-            sines[:, :, node] = (imag @ weighted).T
+                phase *= turn
+            cosines[:, :, node] = (np.ascontiguousarray(phase.real) @ weighted).T
+            sines[:, :, node] = (np.ascontiguousarray(phase.imag) @ weighted).T
         j = stop
     return cosines.reshape(n, -1), sines.reshape(n, -1)
 
