@@ -411,7 +411,7 @@ def _check_templates(value: _Path | None) -> _Path | None:
 
 
 def _run_audit(schedule, rules, out, as_json, fail_on, formats, detail, calibrated,
-               console, templates=None, recordings_anywhere=False) -> int:
+               console, templates=None, recordings_anywhere=False, jobs=None) -> int:
     """The shared body of ``audit`` and ``demo``; returns the exit code.
 
     Every option was checked by its callback before this runs.
@@ -425,7 +425,7 @@ def _run_audit(schedule, rules, out, as_json, fail_on, formats, detail, calibrat
     try:
         with bar:
             result = run(schedule, rules=rules, calibrated=calibrated,
-                         recordings_anywhere=recordings_anywhere,
+                         recordings_anywhere=recordings_anywhere, jobs=jobs,
                          with_shapes=out is not None and "pdf" in wanted, progress=update)
     except RuleSetError as exc:
         console.print(f"[red]rule set:[/] {escape(str(exc))}", highlight=False)
@@ -533,6 +533,8 @@ _AUDIT_HELP = {
     "calibrated": "Use tensions fitted to the schedule's tap-test recordings.",
     "templates": "Folder with your own report wording (report.toml, methods.md, cautions.md); "
                  "files it lacks come from the bundled ones.",
+    "jobs": "Worker processes for the panel types (default: every core); the result is the "
+            "same for any number.",
     "recordings_anywhere": "Allow tap-test recordings outside the schedule's folder "
                            "(by default only files inside it are read).",
 }
@@ -554,6 +556,7 @@ def audit_command(
                                     help=_AUDIT_HELP["templates"], callback=_check_templates),
     recordings_anywhere: bool = typer.Option(False, "--recordings-anywhere",
                                              help=_AUDIT_HELP["recordings_anywhere"]),
+    jobs: int = typer.Option(None, "--jobs", min=1, help=_AUDIT_HELP["jobs"]),
 ) -> None:
     """Audit every panel against every equipment tone that reaches it."""
     from rich.console import Console
@@ -562,7 +565,7 @@ def audit_command(
     raise typer.Exit(_run_audit(schedule, rules, out, as_json,
                                 None if fail_on is None else fail_on.value, formats,
                                 detail.value, calibrated, console, templates,
-                                recordings_anywhere))
+                                recordings_anywhere, jobs))
 
 
 @app.command("demo")
