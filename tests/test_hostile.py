@@ -35,6 +35,7 @@ from typing import Callable
 
 import openpyxl
 import pytest
+from openpyxl.utils import get_column_letter
 from typer.testing import CliRunner
 
 from auditor.cli import app
@@ -57,12 +58,7 @@ _PKG = "http://schemas.openxmlformats.org/package/2006/relationships"
 
 
 def _column(index: int) -> str:
-    letters = ""
-    index += 1
-    while index:
-        index, rest = divmod(index - 1, 26)
-        letters = chr(65 + rest) + letters
-    return letters
+    return get_column_letter(index + 1)
 
 
 def _escape(text: str) -> str:

@@ -14,6 +14,8 @@ import math
 import re
 from typing import Any, Callable
 
+from openpyxl.utils import get_column_letter
+
 from auditor.model import CircleCutout, Cutout, PolygonCutout
 from auditor.schedule import vocabulary as vocab
 from auditor.schedule.vocabulary import match_word
@@ -113,12 +115,7 @@ def clean_text(text: str) -> tuple[str, bool]:
 
 def column_letter(index: int) -> str:
     """Spreadsheet letters of a 0-based column index (0 → A, 25 → Z, 26 → AA)."""
-    letters = ""
-    index += 1
-    while index:
-        index, rest = divmod(index - 1, 26)
-        letters = chr(65 + rest) + letters
-    return letters
+    return get_column_letter(index + 1)
 
 
 def is_blank(value: Any) -> bool:
