@@ -35,8 +35,6 @@ import dataclasses
 import datetime as _dt
 import multiprocessing
 import os
-import sys
-import threading
 from collections.abc import Callable, Sequence
 from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
 from dataclasses import dataclass
@@ -145,7 +143,7 @@ class PanelType:
         weight = 10.0 if finite_elements else 4.0 if p.shape == "circle" else 1.0
         open_mesh = p.material == "mesh" and p.airflow_resistance is None
         if open_mesh or (p.room_side == "none" and p.plenum_side == "none"):
-            weight *= 0.2
+            weight *= 0.05
         else:
             weight *= (2.0 if p.plenum_side == "sealed" else 1.0) * (
                 2.0 if p.airflow_resistance is not None else 1.0)
@@ -354,23 +352,27 @@ def _tasks(works: list[_TypeWork], costs: list[float], jobs: int) -> list[tuple]
 def _pool(jobs: int) -> ProcessPoolExecutor:
     """A process pool of ``jobs`` workers (each task makes its own solve cache).
 
-    On Linux, when this process runs no other thread, workers are forked from it (nothing
-    to import again, and the calling script is not run again); otherwise (a progress bar's
-    thread, another system) they start from a clean server process (``forkserver``) or a
-    fresh interpreter (``spawn``), which import the calling script as a module: a script
-    that audits at its top level must then do it under ``if __name__ == "__main__":``, as
-    for any use of :mod:`multiprocessing`.
+    Workers start from a clean server process (``forkserver``, with this module loaded once
+    in it) where the system has one, else from fresh interpreters (``spawn``); never as forks
+    of the caller, which may be running threads (a progress bar) and whose linear-algebra
+    library may have started its own threads (``auditor`` keeps it to one thread only when
+    imported before numpy; a fresh worker always imports it first). Like any use of
+    :mod:`multiprocessing` that starts processes this way, a script that audits at its top
+    level must do it under ``if __name__ == "__main__":``.
     """
     methods = multiprocessing.get_all_start_methods()
-    if sys.platform.startswith("linux") and "fork" in methods \
-            and threading.active_count() == 1:
-        context = multiprocessing.get_context("fork")
-    elif "forkserver" in methods:
+    if "forkserver" in methods:
         context = multiprocessing.get_context("forkserver")
         context.set_forkserver_preload(["auditor.audit"])
     else:
         context = multiprocessing.get_context("spawn")
     return ProcessPoolExecutor(max_workers=jobs, mp_context=context)
+
+
+#: The least estimated work (in :meth:`PanelType.cost` units, about 0.15 s of one core each
+#: as measured on the demo project) for which worker processes are started: starting them
+#: and warming their caches takes about a second.
+POOL_WORTH = 20.0
 
 
 def _judge_all(types: list[PanelType], groups: list[ToneGroup], ruleset: RuleSet,
@@ -386,8 +388,9 @@ def _judge_all(types: list[PanelType], groups: list[ToneGroup], ruleset: RuleSet
             judged[number] = dict(outcome)
             progress(types[number].count)
 
-    tasks = _tasks(works, [t.cost() for t in types], jobs)
-    if jobs <= 1 or len(tasks) <= 1:
+    costs = [t.cost() for t in types]
+    tasks = _tasks(works, costs, jobs)
+    if jobs <= 1 or len(tasks) <= 1 or sum(costs) < POOL_WORTH:
         for task in tasks:
             take(_judge_family(task, ruleset, air_density, speed_of_sound, with_shapes))
         return judged
@@ -439,7 +442,9 @@ def audit_schedule(
         ISO 8601 time stamp for the result (default: now, local time).
     jobs : int or None
         Worker processes for the panel types: None (the default) uses every core
-        (``os.cpu_count()``), 1 judges in this process. The result is the same for any.
+        (``os.cpu_count()``), 1 judges in this process (as does any number when the work is
+        too little to be worth starting processes, ``POOL_WORTH``). The result is the same
+        for any.
 
     Raises
     ------

@@ -2031,17 +2031,21 @@ def _follow_modes(system: _System, blocks, vectors: np.ndarray, frequencies: np.
 def _distinct(frequencies: np.ndarray, vectors) -> np.ndarray:
     """Indices of the modes left once modes followed to the same root are merged."""
     kept: list[int] = []
-    for i in np.argsort(frequencies, kind="stable"):
+    f = np.asarray(frequencies, float).tolist()
+    for i in np.argsort(frequencies, kind="stable").tolist():
         same = False
-        for j in kept:
-            if abs(frequencies[i] - frequencies[j]) <= 1e-5 * max(frequencies[j], 1e-12):
+        # the modes kept are ascending: only the last few can lie within 1e-5 of this one
+        for j in reversed(kept):
+            if f[i] - f[j] > 1e-5 * max(f[j], 1e-12):
+                break
+            if abs(f[i] - f[j]) <= 1e-5 * max(f[j], 1e-12):
                 a, b = vectors[i], vectors[j]
                 overlap = abs(np.vdot(a, b)) / max(np.linalg.norm(a) * np.linalg.norm(b), 1e-300)
                 if overlap > 0.9:
                     same = True
                     break
         if not same:
-            kept.append(int(i))
+            kept.append(i)
     return np.array(kept, dtype=int)
 
 

