@@ -95,6 +95,72 @@ class PolygonRegion:
 Region = RectangleRegion | CircleRegion | PolygonRegion
 
 
+# ---------------------------------------------------------------------------------------
+# Shape families: what the shapes of a basis are, as a type
+# ---------------------------------------------------------------------------------------
+
+@dataclass(frozen=True, eq=False)
+class RectangleShapes:
+    """The analytic shapes of a rectangle: ``φ_j = 2 sin(m_j πx/Lx) sin(n_j πy/Ly)``.
+
+    ``width`` and ``length`` are Lx and Ly [m]; ``m`` and ``n`` (n_modes,) the half-waves
+    along x and y. The loading step integrates such shapes in closed form.
+    """
+
+    width: float
+    length: float
+    m: np.ndarray
+    n: np.ndarray
+
+    @property
+    def area(self) -> float:
+        return self.width * self.length
+
+    def blocks(self) -> list[np.ndarray]:
+        """Indices of the modes of each parity class of (m, n): uniform pressure and the
+        air's coupling never mix classes (the shapes' symmetry about the centre lines)."""
+        parity = (self.m % 2) * 2 + (self.n % 2)
+        return [np.flatnonzero(parity == p) for p in range(4) if np.any(parity == p)]
+
+    def subset(self, keep: np.ndarray) -> RectangleShapes:
+        """The shapes ``keep`` only, in that order."""
+        return RectangleShapes(self.width, self.length, self.m[keep], self.n[keep])
+
+
+@dataclass(frozen=True, eq=False)
+class DiscShapes:
+    """The analytic shapes of a disc: ``φ_j = scale_j J_m(j_j r/a) cos(m θ)``.
+
+    ``radius`` is a [m]; ``order`` the m, ``zero`` the zeros j_mn of J_m, ``scale`` the
+    unit-mean-square factors (signed) and ``radial`` n − 1 (the zero's 0-based index), each
+    (n_modes,). One representative per cos/sin pair (see the module docstring).
+    """
+
+    radius: float
+    order: np.ndarray
+    zero: np.ndarray
+    scale: np.ndarray
+    radial: np.ndarray
+
+    @property
+    def area(self) -> float:
+        return math.pi * self.radius**2
+
+    def blocks(self) -> list[np.ndarray]:
+        """Indices of the modes of each order m: axisymmetric loading never mixes orders."""
+        return [np.flatnonzero(self.order == m) for m in np.unique(self.order)]
+
+    def subset(self, keep: np.ndarray) -> DiscShapes:
+        """The shapes ``keep`` only, in that order."""
+        return DiscShapes(self.radius, self.order[keep], self.zero[keep], self.scale[keep],
+                          self.radial[keep])
+
+
+#: The family of a basis's shapes: analytic (integrated in closed form), or None for shapes
+#: known only numerically (finite elements), which the loading step integrates by points.
+ShapeFamily = RectangleShapes | DiscShapes | None
+
+
 def complete_below(frequencies: np.ndarray, count: int) -> float:
     """How far the lowest ``count`` of ascending ``frequencies`` hold every mode  [Hz].
 
@@ -132,6 +198,9 @@ class ModalBasis:
     evaluate_some : callable (points (N, 2) [m], indices (k,)) -> ndarray (N, k), optional
         The shapes ``indices`` only (cheaper than ``evaluate`` on a large basis); None: taken
         from ``evaluate``.
+    family : RectangleShapes, DiscShapes or None
+        What the shapes are (:data:`ShapeFamily`): the analytic bases say so, and the loading
+        step dispatches on it; None for numerical shapes.
     """
 
     region: Region
@@ -144,6 +213,7 @@ class ModalBasis:
     complete_to_hz: float | None = None
     evaluate_some: Callable[[np.ndarray, np.ndarray], np.ndarray] | None = field(
         default=None, repr=False)
+    family: ShapeFamily = field(default=None, repr=False)
 
     @property
     def participation(self) -> np.ndarray:

@@ -98,7 +98,6 @@ References
 from __future__ import annotations
 
 import math
-import re
 import warnings
 from dataclasses import dataclass, field
 from functools import lru_cache
@@ -109,8 +108,15 @@ from scipy import linalg, sparse, special
 from scipy.spatial import Delaunay, cKDTree, distance
 
 from auditor.physics import arguments
-from auditor.physics.basis import (CircleRegion, ModalBasis, PolygonRegion, RectangleRegion,
-                                   complete_below)
+from auditor.physics.basis import (
+    CircleRegion,
+    DiscShapes,
+    ModalBasis,
+    PolygonRegion,
+    RectangleRegion,
+    RectangleShapes,
+    complete_below,
+)
 from auditor.physics.cache import SolveCache
 from auditor.physics.materials import structural_loss_factor
 
@@ -136,9 +142,6 @@ SPEED_OF_SOUND = 343.0
 
 #: Fewest in-vacuo modes a loaded solve uses (when the basis function can give them).
 MIN_BASIS = 40
-
-_LABEL = re.compile(r"^\((\d+),(\d+)\)$")
-
 
 class LoadingInputError(ValueError):
     """A loading input a user can get wrong (the message says which and why)."""
@@ -241,39 +244,6 @@ class LoadedModes:
 # ============================================================================================
 
 @dataclass(frozen=True, eq=False)
-class _Rectangle:
-    width: float
-    length: float
-    m: np.ndarray      # half-waves along x, (n,)
-    n: np.ndarray      # half-waves along y, (n,)
-    sign: np.ndarray   # basis φ_j = sign_j · 2 sin(mπx/Lx) sin(nπy/Ly)
-
-    @property
-    def area(self) -> float:
-        return self.width * self.length
-
-    def blocks(self) -> list[np.ndarray]:
-        parity = (self.m % 2) * 2 + (self.n % 2)
-        return [np.flatnonzero(parity == p) for p in range(4) if np.any(parity == p)]
-
-
-@dataclass(frozen=True, eq=False)
-class _Disc:
-    radius: float
-    order: np.ndarray  # m, (n,)
-    zero: np.ndarray   # j_mn, (n,)
-    scale: np.ndarray  # basis φ = scale · J_m(j r/a) · (cos or sin)(mθ), signed
-    radial: np.ndarray  # n − 1 (0-based index of the zero), (n,)
-
-    @property
-    def area(self) -> float:
-        return math.pi * self.radius**2
-
-    def blocks(self) -> list[np.ndarray]:
-        return [np.flatnonzero(self.order == m) for m in np.unique(self.order)]
-
-
-@dataclass(frozen=True, eq=False)
 class _Points:
     region: object
     points: np.ndarray      # (P, 2) cell centroids  [m]
@@ -290,88 +260,14 @@ class _Points:
         return [np.arange(self.values.shape[1])]
 
 
-def _sample_points(region, count: int = 9) -> np.ndarray:
-    """Deterministic well-spread points inside a region (for checking shapes)."""
-    x0, y0, x1, y1 = region.bounds()
-    golden = 0.6180339887498949
-    s = (np.arange(4 * count) * golden) % 1.0
-    t = (np.arange(4 * count) * golden**2 * 1.3 + 0.137) % 1.0
-    points = np.column_stack([x0 + (0.02 + 0.96 * s) * (x1 - x0), y0 + (0.02 + 0.96 * t) * (y1 - y0)])
-    inside = region.contains(points)
-    return points[inside][:count]
-
-
-def _matching_sign(reference: np.ndarray, values: np.ndarray) -> np.ndarray | None:
-    """±1 per column when ``values`` = ±``reference`` column by column, else None."""
-    scale = np.maximum(np.max(np.abs(reference), axis=0), 1e-300)
-    plus = np.max(np.abs(values - reference), axis=0) <= 1e-6 * scale
-    minus = np.max(np.abs(values + reference), axis=0) <= 1e-6 * scale
-    if not np.all(plus | minus):
-        return None
-    return np.where(plus, 1.0, -1.0)
-
-
-@lru_cache(maxsize=256)
-def _parse_labels(labels: tuple) -> tuple[np.ndarray, np.ndarray] | None:
-    """The two indices of labels "(m,n)" as read-only arrays; None when any label differs
-    (cached: the bases of one outline at nearby tensions share their labels)."""
-    first, second = [], []
-    for label in labels:
-        match = _LABEL.match(str(label).replace(" ", ""))
-        if match is None:
-            return None
-        first.append(int(match.group(1)))
-        second.append(int(match.group(2)))
-    out = np.array(first, dtype=int), np.array(second, dtype=int)
-    for array in out:
-        array.setflags(write=False)
-    return out
-
-
 def _recognise(basis: ModalBasis, cache: SolveCache):
-    """The quadrature family for a basis (kept in ``cache`` by the basis object; a point
-    family by the basis's shapes and region, so bases that share their shapes, one outline
-    at several tensions, share it and what is kept for it)."""
-    def recognised():
-        family = _recognised_family(basis)
-        if family is None:
-            family = cache.families.get_for((basis.evaluate, basis.region),
-                                            ("points", len(basis)), lambda: _point_family(basis))
-        return family
-    return cache.families.get_for((basis,), None, recognised)
-
-
-def _recognised_family(basis: ModalBasis):
-    """The analytic quadrature family of a basis whose shapes are the known ones, else None."""
-    region = basis.region
-    parsed = _parse_labels(tuple(basis.labels))
-    if parsed is not None and len(basis) > 0:
-        first, second = parsed
-        probe = _sample_points(region)
-        values = np.asarray(basis.evaluate(probe), float).reshape(len(probe), len(basis))
-        if isinstance(region, RectangleRegion) and np.all(first >= 1) and np.all(second >= 1):
-            lx, ly = region.width, region.length
-            reference = 2.0 * np.sin(np.outer(probe[:, 0], first * np.pi / lx)) * np.sin(
-                np.outer(probe[:, 1], second * np.pi / ly))
-            sign = _matching_sign(reference, values)
-            if sign is not None:
-                return _Rectangle(lx, ly, first, second, sign)
-        if isinstance(region, CircleRegion) and np.all(second >= 1):
-            a = region.radius
-            zeros = np.empty(len(first))
-            for m in np.unique(first):
-                mask = first == m
-                zeros[mask] = _bessel_zeros(int(m), _rounded_up(int(second[mask].max())))[second[mask] - 1]
-            scale = np.where(first == 0, 1.0, math.sqrt(2.0)) / np.abs(special.jv(first + 1.0, zeros))
-            r = np.hypot(probe[:, 0], probe[:, 1])
-            theta = np.arctan2(probe[:, 1], probe[:, 0])
-            radial = special.jv(first[None, :], np.outer(r / a, zeros)) * scale[None, :]
-            for angular in (np.cos, np.sin):
-                reference = radial * angular(np.outer(theta, first))
-                sign = _matching_sign(reference, values)
-                if sign is not None:
-                    return _Disc(a, first, zeros, scale * sign, second - 1)
-    return None
+    """The quadrature family for a basis: its own analytic family (rectangle, disc), else
+    a point family of its shapes, kept in ``cache`` by the shapes and region (bases that
+    share their shapes, one outline at several tensions, share it and what is kept for it)."""
+    if basis.family is not None:
+        return basis.family
+    return cache.families.get_for((basis.evaluate, basis.region), ("points", len(basis)),
+                                  lambda: _point_family(basis))
 
 
 # ============================================================================================
@@ -747,7 +643,7 @@ def _rounded_up(count: int) -> int:
     return int(8 * math.ceil(count / 8))
 
 
-def _rectangle_added_mass(family: _Rectangle, cache: SolveCache) -> np.ndarray:
+def _rectangle_added_mass(family: RectangleShapes, cache: SolveCache) -> np.ndarray:
     """∬∬ φp φq / R dA dA' / (2π) for the rectangle basis  [m³].
 
     The normalised table depends on the aspect ratio (12 significant digits) and on its size
@@ -761,7 +657,7 @@ def _rectangle_added_mass(family: _Rectangle, cache: SolveCache) -> np.ndarray:
                                        lambda: _rectangle_table(aspect, m_count, n_count))
     i, j = family.m - 1, family.n - 1
     block = table[i[:, None], j[:, None], i[None, :], j[None, :]]
-    return family.width**3 * block * np.outer(family.sign, family.sign)
+    return family.width**3 * block
 
 
 # ============================================================================================
@@ -821,7 +717,7 @@ def _disc_order_table(order: int, count: int) -> np.ndarray:
     return integral + np.outer(c, c) / (4.0 * np.pi * tail_start**4)
 
 
-def _disc_added_mass(family: _Disc) -> np.ndarray:
+def _disc_added_mass(family: DiscShapes) -> np.ndarray:
     """The kernel integral ∬∬ φp φq /R dA dA' for the disc basis.  [m³]"""
     n = len(family.order)
     result = np.zeros((n, n))
@@ -842,9 +738,9 @@ def _disc_added_mass(family: _Disc) -> np.ndarray:
 
 def _kernel_integral(family, cache: SolveCache) -> np.ndarray:
     """∬∬ φp(x) φq(x') / |x − x'| dA dA'  [m³] for the family's basis."""
-    if isinstance(family, _Rectangle):
+    if isinstance(family, RectangleShapes):
         return 2.0 * np.pi * _rectangle_added_mass(family, cache)
-    if isinstance(family, _Disc):
+    if isinstance(family, DiscShapes):
         return _disc_added_mass(family)
     return _points_added_mass_normalised(family)
 
@@ -958,17 +854,16 @@ class _SpectralGrid:
             self.blocks = [b[active[b]] for b in self.blocks]
             self.blocks = [b for b in self.blocks if len(b)]
         length = math.sqrt(family.area)
-        if isinstance(family, _Rectangle):
+        if isinstance(family, RectangleShapes):
             theta, self.w_theta = _quarter_angles(_angle_count(length, float(kappa[-1])))
             kx = np.outer(np.cos(theta), kappa).ravel()
             ky = np.outer(np.sin(theta), kappa).ravel()
             tx = _sine_spectrum(np.arange(1, family.m.max() + 1), family.width, kx)
             ty = _sine_spectrum(np.arange(1, family.n.max() + 1), family.length, ky)
             tx, ty = tx.astype(np.float32), ty.astype(np.float32)
-            self.shapes = [tx[family.m[b] - 1] * ty[family.n[b] - 1]
-                           * (2.0 * family.sign[b, None]).astype(np.float32)
+            self.shapes = [tx[family.m[b] - 1] * ty[family.n[b] - 1] * np.float32(2.0)
                            for b in self.blocks]
-        elif isinstance(family, _Disc):
+        elif isinstance(family, DiscShapes):
             a = family.radius
             self.shapes = []
             for b in self.blocks:
@@ -989,14 +884,14 @@ class _SpectralGrid:
         family, kappa = self.family, self.kappa
         result = np.zeros((coefficients.shape[1], len(kappa)),
                           dtype=np.result_type(coefficients.dtype, float))
-        if isinstance(family, (_Rectangle, _Disc)):
+        if isinstance(family, (RectangleShapes, DiscShapes)):
             for block, shapes in zip(self.blocks, self.shapes):
                 used = np.flatnonzero(np.any(coefficients[block] != 0, axis=0))
                 if len(used) == 0:
                     continue
                 spectrum = coefficients[np.ix_(block, used)].T.astype(
                     np.complex64 if np.iscomplexobj(coefficients) else shapes.dtype) @ shapes
-                if isinstance(family, _Rectangle):
+                if isinstance(family, RectangleShapes):
                     density = (spectrum * spectrum).reshape(len(used), len(self.w_theta), len(kappa))
                     result[used] += np.tensordot(density, self.w_theta, axes=([1], [0]))
                 else:
@@ -1191,9 +1086,9 @@ def baffled_air_impedance(basis: ModalBasis, frequency_hz: float, *,
 
 
 def _same_block(family, p: int, q: int) -> bool:
-    if isinstance(family, _Rectangle):
+    if isinstance(family, RectangleShapes):
         return bool(family.m[p] % 2 == family.m[q] % 2 and family.n[p] % 2 == family.n[q] % 2)
-    if isinstance(family, _Disc):
+    if isinstance(family, DiscShapes):
         return bool(family.order[p] == family.order[q])
     return True
 
@@ -1211,7 +1106,7 @@ class _Cavity:
     depth: float              # [m]
 
 
-def _rectangle_cavity(family: _Rectangle, depth: float) -> _Cavity:
+def _rectangle_cavity(family: RectangleShapes, depth: float) -> _Cavity:
     lx, ly = family.width, family.length
     p = np.arange(0, family.m.max() + 12)
     q = np.arange(0, family.n.max() + 12)
@@ -1226,14 +1121,14 @@ def _rectangle_cavity(family: _Rectangle, depth: float) -> _Cavity:
     iy = sine_cosine(family.n, q, ly)          # (n, Q)
     norm_x = np.where(p == 0, lx, 0.5 * lx)
     norm_y = np.where(q == 0, ly, 0.5 * ly)
-    coupling = (2.0 * family.sign[:, None, None] * ix[:, :, None] * iy[:, None, :]
+    coupling = (2.0 * ix[:, :, None] * iy[:, None, :]
                 / np.sqrt(np.outer(norm_x, norm_y))[None, :, :]).reshape(len(family.m), -1)
     wavenumbers = np.hypot.outer(np.pi * p / lx, np.pi * q / ly).ravel()
     used = np.any(coupling != 0, axis=0)
     return _Cavity(wavenumbers[used], coupling[:, used], depth)
 
 
-def _disc_cavity(family: _Disc, depth: float) -> _Cavity:
+def _disc_cavity(family: DiscShapes, depth: float) -> _Cavity:
     a = family.radius
     columns, wavenumbers = [], []
     n = len(family.order)
@@ -1294,9 +1189,9 @@ def _points_cavity(family: _Points, depth: float, cache: SolveCache) -> _Cavity:
 
 
 def _cavity_for(family, depth: float, cache: SolveCache) -> _Cavity:
-    if isinstance(family, _Rectangle):
+    if isinstance(family, RectangleShapes):
         return _rectangle_cavity(family, depth)
-    if isinstance(family, _Disc):
+    if isinstance(family, DiscShapes):
         return _disc_cavity(family, depth)
     return _points_cavity(family, depth, cache)
 
@@ -2356,6 +2251,8 @@ def _truncated(basis: ModalBasis, count: int, cache: SolveCache) -> ModalBasis:
 
     evaluate_kept, evaluate_some = cache.families.get_for(
         (basis.evaluate, basis.region), ("truncated", keep.tobytes()), shapes)
+    family = None if basis.family is None else cache.families.get_for(
+        (basis.family,), ("truncated", keep.tobytes()), lambda: basis.family.subset(keep))
 
     return ModalBasis(
         region=basis.region,
@@ -2367,6 +2264,7 @@ def _truncated(basis: ModalBasis, count: int, cache: SolveCache) -> ModalBasis:
         evaluate=evaluate_kept,
         complete_to_hz=complete,
         evaluate_some=evaluate_some,
+        family=family,
     )
 
 

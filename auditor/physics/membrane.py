@@ -48,7 +48,14 @@ from scipy import special
 
 from auditor.physics.arguments import non_negative as _non_negative
 from auditor.physics.arguments import positive as _positive
-from auditor.physics.basis import CircleRegion, ModalBasis, RectangleRegion, complete_below
+from auditor.physics.basis import (
+    CircleRegion,
+    DiscShapes,
+    ModalBasis,
+    RectangleRegion,
+    RectangleShapes,
+    complete_below,
+)
 
 __all__ = [
     "RectangularSpectra",
@@ -500,6 +507,7 @@ def rectangular_membrane_basis(tension_x, tension_y, areal_density, width, lengt
         evaluate=evaluate,
         complete_to_hz=complete,
         evaluate_some=partial(_rectangle_some_shapes, width=lx, length=ly, m=m, n=n),
+        family=RectangleShapes(lx, ly, m, n),
     )
 
 
@@ -830,4 +838,5 @@ def circular_membrane_basis(tension, areal_density, radius, fmax, max_modes=None
         complete_to_hz=complete,
         evaluate_some=partial(_circle_some_shapes, radius=a, m=m.astype(float), zero=zero,
                               scale=scale),
+        family=DiscShapes(a, m, zero, scale, n - 1),
     )

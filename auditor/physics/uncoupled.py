@@ -56,7 +56,7 @@ import numpy as np
 from scipy import special
 
 from auditor.physics import fluid
-from auditor.physics.basis import ModalBasis, PolygonRegion
+from auditor.physics.basis import DiscShapes, ModalBasis, PolygonRegion, RectangleShapes
 from auditor.physics.cache import SolveCache
 
 __all__ = ["UncoupledModes", "SUBSONIC_MARGIN", "self_added_mass", "mode_wavenumbers",
@@ -108,10 +108,10 @@ def mode_wavenumbers(basis: ModalBasis, indices, cache: SolveCache | None = None
     region = basis.region
     if not isinstance(region, PolygonRegion):
         family = fluid._recognise(basis, SolveCache() if cache is None else cache)
-        if isinstance(family, fluid._Rectangle):
+        if isinstance(family, RectangleShapes):
             return np.pi * np.hypot(family.m[indices] / family.width,
                                     family.n[indices] / family.length)
-        if isinstance(family, fluid._Disc):
+        if isinstance(family, DiscShapes):
             return family.zero[indices] / family.radius
         area = float(region.area)
         perimeter = 0.0
@@ -135,7 +135,7 @@ def self_added_mass(basis: ModalBasis, indices, cache: SolveCache | None = None
         return np.zeros(0), True
     if not isinstance(basis.region, PolygonRegion):
         family = fluid._recognise(basis, cache)
-        if isinstance(family, fluid._Rectangle):
+        if isinstance(family, RectangleShapes):
             m, n = family.m[indices], family.n[indices]
             aspect = float(f"{family.length / family.width:.12g}")
             m_count, n_count = _table_size(int(m.max())), _table_size(int(n.max()))
@@ -143,7 +143,7 @@ def self_added_mass(basis: ModalBasis, indices, cache: SolveCache | None = None
                 ("self", aspect, m_count, n_count),
                 lambda: fluid._rectangle_self_table(aspect, m_count, n_count))
             return family.width**3 * table[m - 1, n - 1], True
-        if isinstance(family, fluid._Disc):
+        if isinstance(family, DiscShapes):
             result = np.empty(len(indices))
             order = family.order[indices]
             for m in np.unique(order):
