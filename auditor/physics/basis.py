@@ -20,6 +20,7 @@ Conventions (all bases keep them, so the loading step needs no special cases):
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from typing import Callable
 
@@ -156,6 +157,44 @@ class DiscShapes:
                           self.radial[keep])
 
 
+class IndexedNames(Sequence):
+    """Names of analytic modes (labels, nodal lines) made from their two indices when read.
+
+    A large panel has tens of thousands of modes, of which a few are ever reported; this
+    sequence holds the index arrays ``first`` and ``second`` and makes ``name(first[k],
+    second[k])`` for the entries read (a slice gives a tuple). ``name`` must be a function
+    of module level (the names travel between processes with the basis).
+    """
+
+    __slots__ = ("first", "second", "name")
+
+    def __init__(self, first: np.ndarray, second: np.ndarray, name: Callable[[int, int], object]):
+        self.first, self.second, self.name = first, second, name
+
+    def __len__(self) -> int:
+        return len(self.first)
+
+    def __getitem__(self, k):
+        if isinstance(k, slice):
+            return tuple(self.name(int(a), int(b))
+                         for a, b in zip(self.first[k].tolist(), self.second[k].tolist()))
+        return self.name(int(self.first[k]), int(self.second[k]))
+
+    def __iter__(self):
+        return map(self.name, self.first.tolist(), self.second.tolist())
+
+    def __eq__(self, other) -> bool:
+        return isinstance(other, Sequence) and tuple(self) == tuple(other)
+
+    __hash__ = None  # type: ignore[assignment]
+
+    def __repr__(self) -> str:
+        return f"IndexedNames({len(self)} modes, {self.name.__name__})"
+
+    def __reduce__(self):
+        return IndexedNames, (self.first, self.second, self.name)
+
+
 #: The family of a basis's shapes: analytic (integrated in closed form), or None for shapes
 #: known only numerically (finite elements), which the loading step integrates by points.
 ShapeFamily = RectangleShapes | DiscShapes | None
@@ -184,8 +223,9 @@ class ModalBasis:
     ----------
     region : Region
     frequencies_hz : ndarray (n,)  [Hz]
-    labels : tuple of str (n,)
-        "(m,n)" for rectangle and circle (see ``auditor.model.Mode``), "#k" otherwise.
+    labels : sequence of str (n,)
+        "(m,n)" for rectangle and circle (see ``auditor.model.Mode``; an
+        :class:`IndexedNames`, made when read), "#k" otherwise.
     multiplicity : ndarray of int (n,)
     mean : ndarray (n,)  [-]
         ∫ φ dA / A with the unit-mean-square normalisation; participation = mean².
@@ -205,10 +245,10 @@ class ModalBasis:
 
     region: Region
     frequencies_hz: np.ndarray
-    labels: tuple[str, ...]
+    labels: Sequence[str]
     multiplicity: np.ndarray
     mean: np.ndarray
-    nodal_lines: tuple[tuple[tuple[str, int], ...], ...]
+    nodal_lines: Sequence[tuple[tuple[str, int], ...]]
     evaluate: Callable[[np.ndarray], np.ndarray] = field(repr=False)
     complete_to_hz: float | None = None
     evaluate_some: Callable[[np.ndarray, np.ndarray], np.ndarray] | None = field(

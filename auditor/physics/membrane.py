@@ -51,6 +51,7 @@ from auditor.physics.arguments import positive as _positive
 from auditor.physics.basis import (
     CircleRegion,
     DiscShapes,
+    IndexedNames,
     ModalBasis,
     RectangleRegion,
     RectangleShapes,
@@ -441,17 +442,24 @@ def _rectangle_some_shapes(points, indices, width, length, m, n):
                              n[indices].astype(float), np.arange(len(indices)))
 
 
-@lru_cache(maxsize=16384)
-def _rectangle_mode_names(m: int, n: int) -> tuple[str, tuple[tuple[str, int], ...]]:
-    """Label "(m,n)" and nodal lines of rectangle mode (m, n) (memoised: a large panel has
-    tens of thousands of modes, made again at every tension a remedy tries)."""
-    return f"({m},{n})", (("parallel to length", m - 1), ("parallel to width", n - 1))
+def _rectangle_label(m: int, n: int) -> str:
+    """Label "(m,n)" of rectangle mode (m, n)."""
+    return f"({m},{n})"
 
 
-@lru_cache(maxsize=16384)
-def _circle_mode_names(m: int, n: int) -> tuple[str, tuple[tuple[str, int], ...]]:
-    """Label "(m,n)" and nodal lines (m diameters, n − 1 circles) of disc mode (m, n)."""
-    return f"({m},{n})", (("diameters", m), ("circles", n - 1))
+def _rectangle_nodal_lines(m: int, n: int) -> tuple[tuple[str, int], ...]:
+    """Nodal lines of rectangle mode (m, n): m − 1 along the length, n − 1 along the width."""
+    return (("parallel to length", m - 1), ("parallel to width", n - 1))
+
+
+def _circle_label(m: int, n: int) -> str:
+    """Label "(m,n)" of disc mode (m, n)."""
+    return f"({m},{n})"
+
+
+def _circle_nodal_lines(m: int, n: int) -> tuple[tuple[str, int], ...]:
+    """Nodal lines of disc mode (m, n): m diameters and n − 1 circles."""
+    return (("diameters", m), ("circles", n - 1))
 
 
 def rectangular_membrane_basis(tension_x, tension_y, areal_density, width, length, fmax,
@@ -496,14 +504,13 @@ def rectangular_membrane_basis(tension_x, tension_y, areal_density, width, lengt
     evaluate = partial(_rectangle_shapes, width=lx, length=ly, m=m, n=n,
                        distinct_m=distinct_m.astype(float), m_slot=m_slot,
                        distinct_n=distinct_n.astype(float), n_slot=n_slot)
-    named = list(map(_rectangle_mode_names, m.tolist(), n.tolist()))
     return ModalBasis(
         region=RectangleRegion(lx, ly),
         frequencies_hz=frequency,
-        labels=tuple(label for label, _ in named),
+        labels=IndexedNames(m, n, _rectangle_label),
         multiplicity=np.ones(len(frequency), dtype=int),
         mean=rectangular_mode_mean(m, n),
-        nodal_lines=tuple(lines for _, lines in named),
+        nodal_lines=IndexedNames(m, n, _rectangle_nodal_lines),
         evaluate=evaluate,
         complete_to_hz=complete,
         evaluate_some=partial(_rectangle_some_shapes, width=lx, length=ly, m=m, n=n),
@@ -826,14 +833,13 @@ def circular_membrane_basis(tension, areal_density, radius, fmax, max_modes=None
     scale = np.where(m == 0, 1.0, math.sqrt(2.0)) / np.abs(next_order)
     mean = np.where(m == 0, 2.0 * np.sign(next_order) / zero, 0.0)
     evaluate = partial(_circle_shapes, radius=a, m=m.astype(float), zero=zero, scale=scale)
-    named = list(map(_circle_mode_names, m.tolist(), n.tolist()))
     return ModalBasis(
         region=CircleRegion(a),
         frequencies_hz=frequency,
-        labels=tuple(label for label, _ in named),
+        labels=IndexedNames(m, n, _circle_label),
         multiplicity=np.where(m >= 1, 2, 1),
         mean=mean,
-        nodal_lines=tuple(lines for _, lines in named),
+        nodal_lines=IndexedNames(m, n, _circle_nodal_lines),
         evaluate=evaluate,
         complete_to_hz=complete,
         evaluate_some=partial(_circle_some_shapes, radius=a, m=m.astype(float), zero=zero,
