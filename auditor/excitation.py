@@ -57,7 +57,10 @@ from collections.abc import Iterable
 from dataclasses import dataclass
 
 from auditor.judgement.response import (
-    STANDARD_GRAVITY, default_isolator_damping, isolator_kind, mount_natural_frequency_hz,
+    STANDARD_GRAVITY,
+    default_isolator_damping,
+    isolator_kind,
+    mount_natural_frequency_hz,
     transmissibility,
 )
 from auditor.model import Equipment, Excitation, Mount, RowProblem

@@ -62,11 +62,22 @@ from typing import Any
 import numpy as np
 
 from auditor.judgement.screening import (
-    CAUTION, CONFLICT, ExcitationArrays, ModeArrays, PairGrades, default_loss_factor,
+    CAUTION,
+    CONFLICT,
+    ExcitationArrays,
+    ModeArrays,
+    PairGrades,
+    default_loss_factor,
     judge_pairs,
 )
 from auditor.judgement.tuning import (
-    ModeTracks, blocked_intervals, caution_regions, complement, mode_tracks, modes_at, union,
+    ModeTracks,
+    blocked_intervals,
+    caution_regions,
+    complement,
+    mode_tracks,
+    modes_at,
+    union,
 )
 from auditor.judgement.verdict import overlap_frequency_hz
 from auditor.model import Excitation, Panel, Remedy

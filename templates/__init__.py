@@ -1,1 +1,4 @@
-"""Report wording, the blank-schedule resources and the invented demo project (data; mapped into the package by the build)."""
+"""Report wording, the blank-schedule resources and the invented demo project.
+
+Data only; the build maps this folder into the package as ``auditor.templates``.
+"""

@@ -7,13 +7,13 @@ import math
 
 import numpy as np
 import pytest
+from reference_models import ideal_membrane_modes_to
 from scipy.special import jn_zeros
 
 from auditor.judgement.screening import evaluate_panel
 from auditor.model import Excitation, Mode, Panel, SourceRef
 from auditor.remedy import SAFETY_NOTE, bay_panel, panel_remedy, remedy_advice, scales_exactly
 from auditor.rules import load_ruleset
-from reference_models import ideal_membrane_modes_to
 
 STANDARD = dataclasses.replace(load_ruleset("standard"), support_participation_threshold=0.0)
 # The separation screen alone (response grading off), for windows checked by hand.

@@ -39,7 +39,11 @@ import numpy as np
 
 from auditor.judgement.response import modal_overlap_frequency_hz
 from auditor.judgement.screening import (
-    ExcitationArrays, ModeArrays, default_loss_factor, findings_of, judge_pairs,
+    ExcitationArrays,
+    ModeArrays,
+    default_loss_factor,
+    findings_of,
+    judge_pairs,
 )
 from auditor.model import CircleCutout, Excitation, Finding, Mode, Panel
 from auditor.physics.geometry import signed_area

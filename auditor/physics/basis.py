@@ -90,7 +90,8 @@ class PolygonRegion:
 
     def bounds(self) -> tuple[float, float, float, float]:
         o = np.asarray(self.outline)
-        return (float(o[:, 0].min()), float(o[:, 1].min()), float(o[:, 0].max()), float(o[:, 1].max()))
+        return (float(o[:, 0].min()), float(o[:, 1].min()),
+                float(o[:, 0].max()), float(o[:, 1].max()))
 
 
 Region = RectangleRegion | CircleRegion | PolygonRegion

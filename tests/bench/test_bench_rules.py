@@ -14,7 +14,11 @@ import pytest
 
 from auditor.excitation import excitations_for_schedule
 from auditor.judgement.screening import (
-    ExcitationArrays, ModeArrays, assessment_limit_hz, default_loss_factor, evaluate_panel,
+    ExcitationArrays,
+    ModeArrays,
+    assessment_limit_hz,
+    default_loss_factor,
+    evaluate_panel,
     reaching,
 )
 from auditor.model import Equipment, Mode, Panel, SourceRef

@@ -207,6 +207,27 @@ def test_two_processes_against_one_on_the_5000_panel_schedule(tmp_path):
     assert speedup >= 1.6
 
 
+def test_two_processes_against_one_on_the_sealed_cavity_schedule(tmp_path):
+    # The 5,000 analytic panels are judged in under a second, less than starting worker
+    # processes costs (``auditor.audit.POOL_WORTH``): there the pool is not used. Panels over
+    # sealed cavities are where the work is, and where a second process must pay.
+    path = _write_workbook(tmp_path / "sealed.xlsx", _film_types(sealed=True), 1000, 100)
+    schedule = read_schedule([path])
+    rules = load_ruleset("standard")
+    times = {}
+    results = {}
+    for jobs in (1, 2):
+        start = time.perf_counter()
+        results[jobs] = audit_schedule(schedule, rules, with_shapes=False, jobs=jobs,
+                                       created="2024-01-01T00:00:00")
+        times[jobs] = time.perf_counter() - start
+    speedup = times[1] / times[2]
+    print(f"\n1,000 panels over sealed cavities: audit_schedule jobs=1 {times[1]:.2f} s, "
+          f"jobs=2 {times[2]:.2f} s: {speedup:.2f} × on {os.cpu_count()} cores")
+    assert results[1].panels == results[2].panels
+    assert speedup >= 1.6
+
+
 def _descendants(pid: int) -> list[int]:
     found, queue = [], [pid]
     while queue:
