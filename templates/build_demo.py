@@ -178,8 +178,8 @@ def build_tap_tests(workbook: Path = OUT) -> list[Path]:
     """
     import dataclasses
 
+    from auditor.calibrate import synthesise_tap_test, write_wav
     from auditor.physics.modes import modes_for
-    from auditor.recording import synthesise_tap_test, write_wav
     from auditor.schedule import read_schedule
 
     schedule = read_schedule([workbook])

@@ -18,6 +18,7 @@ import pytest
 from auditor.calibrate import (
     Calibration,
     CalibrationError,
+    Recording,
     apply_calibration,
     calibrate_panel,
     calibrate_schedule,
@@ -27,10 +28,11 @@ from auditor.calibrate import (
     hum_lines,
     match_peaks,
     measure_peaks,
+    synthesise_tap_test,
     tap_spectrum,
+    write_wav,
 )
 from auditor.model import Mode, Panel, Project, Schedule, SourceRef
-from auditor.recording import Recording, synthesise_tap_test, write_wav
 
 RATE = 4000
 TRUE_SCALE = 0.85

@@ -1,4 +1,5 @@
-"""Reading, checking and synthesising tap-test recordings (auditor.recording)."""
+"""Reading, checking and synthesising tap-test recordings (auditor.calibrate: recording,
+reader, wav, delimited, synthesis)."""
 
 from __future__ import annotations
 
@@ -10,16 +11,17 @@ import numpy as np
 import pytest
 from scipy.signal import hilbert
 
-from auditor import recording
-from auditor.recording import (
+from auditor.calibrate import (
     CLIP_RUN_SAMPLES,
     MAX_RECORDING_BYTES,
     MIN_DURATION_S,
     MIN_SAMPLES,
     Recording,
     RecordingError,
+    delimited,
     read_recording,
     synthesise_tap_test,
+    wav,
     write_wav,
 )
 
@@ -360,10 +362,10 @@ def test_csv_line_count_line_length_and_columns_are_bounded(tmp_path, monkeypatc
     x = _ring(0.4)
     body = "\n".join(f"{b:.9f}" for b in x)
     path = _write(tmp_path / "long.csv", "signal (fs=8000)\n" + body)
-    monkeypatch.setattr(recording, "MAX_CSV_LINES", x.size)  # one line short of the file
+    monkeypatch.setattr(delimited, "MAX_CSV_LINES", x.size)  # one line short of the file
     with pytest.raises(RecordingError, match=f"{x.size + 1} lines; refused"):
         read_recording(path)
-    monkeypatch.setattr(recording, "MAX_CSV_LINES", x.size + 1)
+    monkeypatch.setattr(delimited, "MAX_CSV_LINES", x.size + 1)
     assert read_recording(path).samples.size == x.size
     wide = _write(tmp_path / "wide.csv", "0," * 3000 + "1\n" + "1,2\n" * 10)
     with pytest.raises(RecordingError, match="line 1: longer than 4096 bytes"):
@@ -375,7 +377,7 @@ def test_csv_line_count_line_length_and_columns_are_bounded(tmp_path, monkeypatc
 
 def test_a_time_series_over_the_sample_limit_is_refused(tmp_path, monkeypatch):
     path = write_wav(tmp_path / "long.wav", _ring(0.6), RATE, bits=16)
-    monkeypatch.setattr(recording, "MAX_SAMPLES", 4000)
+    monkeypatch.setattr(wav, "MAX_SAMPLES", 4000)
     with pytest.raises(RecordingError, match="too long: 4800 samples"):
         read_recording(path)
 

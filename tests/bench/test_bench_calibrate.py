@@ -9,16 +9,15 @@ import tracemalloc
 
 import pytest
 
-from auditor.calibrate import calibrate_panel
-from auditor.recording import (
+from auditor.calibrate import (
     MAX_CSV_LINES,
     MAX_SAMPLES,
     Recording,
+    calibrate_panel,
     read_recording,
     synthesise_tap_test,
     write_wav,
 )
-
 from tests.test_calibrate import PANEL, ROOM_MODE_HZ, ideal_membrane
 
 
