@@ -16,7 +16,7 @@ keyed by an object (a basis, a shape) hold that object, so its identity cannot b
 the entry lives.
 
 Memoised pure functions of a few hashable numbers (Gauss rules, Bessel zeros, the disc's
-per-order added-mass integrals, the parsing of mode labels) stay as ``functools.lru_cache``
+per-order added-mass integrals, the disc's self terms) stay as ``functools.lru_cache``
 on the functions themselves: their values cannot depend on what ran before.
 """
 
@@ -132,9 +132,10 @@ class SolveCache:
         Finite-element eigen-solutions of a normalised shape, by the shape key
         (:func:`auditor.physics.geometry.normalised_shape_key`), accuracy and number of modes.
     ``families``
-        The quadrature family the air-loading step recognises in a basis, by the basis object;
-        and the shapes of a basis cut to its lowest modes, by the shapes cut (so that one
-        outline at several tensions keeps one shape object, and its air matrices).
+        The point-quadrature family of a basis with numerical shapes, by its shapes and
+        region (analytic bases carry their own family, ``ModalBasis.family``); and the shapes
+        of a basis cut to its lowest modes, by the shapes cut (so that one outline at several
+        tensions keeps one shape object, and its air matrices).
     ``added_mass``
         Incompressible added-mass matrices (per unit air density) of polygonal bases, by the
         shape object.
