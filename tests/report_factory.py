@@ -10,8 +10,6 @@ from __future__ import annotations
 
 import dataclasses
 import math
-from dataclasses import dataclass, field
-from typing import Any
 
 import numpy as np
 from scipy.special import jn, jn_zeros
@@ -35,40 +33,20 @@ from auditor.model import (
     SourceRef,
     finding_rank,
 )
+from auditor.rules import RuleSet
 
 TRICKY_ID = '<b>&"x"'
 LONG_ID = "CEILING-LEVEL-03-OPEN-PLAN-OFFICE-NORTH-WING-BAY-17-PANEL-A-WITH-A-VERY-LONG-NAME"
 
 
-@dataclass(frozen=True)
-class StandInRuleSet:
-    """The fields of auditor.rules.RuleSet the writers read."""
-
-    name: str = "standard-hvac"
-    description: str = "Common-practice margins: conflict within ±10 %, caution within ±20 %."
-    path: str = "/work/main/rules/standard-hvac.toml"
-    fmax_hz: float | None = 500.0
-    excitation_multiple: float | None = 2.0
-    max_modes: int = 12
-    harmonics: tuple[tuple[str, int], ...] = (("fan", 2), ("pump", 2), ("transformer", 3))
-    conflict_margin: float = 0.10
-    caution_margin: float = 0.20
-    participation_threshold: float = 0.01
-    support_participation_threshold: float = 0.005
-    conflict_db: float = 0.0
-    report_db: float = -20.0
-    bandwidth_widening: bool = True
-    use_zones: bool = True
-    strouhal: float = 0.2
-    default_slip: float = 0.03
-    max_tension_factor: float = 1.5
-    min_tension_factor: float = 0.5
-    max_bays: int = 8
-    origin: str = "standard-hvac.toml, SHA-256 5d41402abc4b\u2026"
-    extra: dict[str, Any] = field(default_factory=dict)
-
-    def as_dict(self) -> dict[str, Any]:
-        return {k: getattr(self, k) for k in self.__dataclass_fields__ if k != "extra"}
+def report_ruleset() -> RuleSet:
+    """A rule set of the schema's defaults under another name, with a fixed 500 Hz
+    assessment limit (the factory's modes stop below it)."""
+    return RuleSet(
+        name="standard-hvac",
+        description="Common-practice margins: conflict within ±10 %, caution within ±20 %.",
+        origin="standard-hvac.toml, SHA-256 5d41402abc4b\u2026", fmax_hz=500.0,
+        excitation_multiple=2.0)
 
 
 def rectangle_modes(width: float, length: float, tension: float, areal_density: float,
@@ -183,7 +161,7 @@ def _separation(f: float, e: Excitation) -> float:
     return (f - hi) / hi if f > hi else (f - lo) / lo
 
 
-def _findings(panel: str, modes: list[Mode], lines: list[Excitation], rules: StandInRuleSet,
+def _findings(panel: str, modes: list[Mode], lines: list[Excitation], rules: RuleSet,
               limit_hz: float = math.inf) -> list[Finding]:
     """A plain ±margin screen graded by the SDOF response 20·log10(p·|H|·T), |H| =
     1/√((1 − ρ²)² + η²) (Harris' Shock and Vibration Handbook, ch. 2)."""
@@ -214,7 +192,7 @@ def _findings(panel: str, modes: list[Mode], lines: list[Excitation], rules: Sta
     return sorted(out, key=finding_rank)
 
 
-def _windows(modes: list[Mode], lines: list[Excitation], rules: StandInRuleSet, tension: float,
+def _windows(modes: list[Mode], lines: list[Excitation], rules: RuleSet, tension: float,
              low: float, high: float) -> list[tuple[float, float]]:
     """Tensions with no conflict, modes scaled as √T (Kinsler et al., ch. 4), on a fine grid."""
     grid = np.linspace(low, high, 801)
@@ -237,7 +215,7 @@ def _windows(modes: list[Mode], lines: list[Excitation], rules: StandInRuleSet, 
     return out
 
 
-def _remedy(panel: Panel, modes: list[Mode], lines: list[Excitation], rules: StandInRuleSet,
+def _remedy(panel: Panel, modes: list[Mode], lines: list[Excitation], rules: RuleSet,
             findings: list[Finding]) -> Remedy | None:
     if not findings:
         return None
@@ -268,7 +246,7 @@ def make_result(n_panels: int = 6, n_flagged: int | None = None, *, tricky: bool
     assessed": its modes stop short of the pump's band. Every flagged panel has findings and a
     remedy.
     """
-    rules = StandInRuleSet()
+    rules = report_ruleset()
     n_flagged = min(n_panels, 4 if n_flagged is None else n_flagged)
     ex = excitations()
     all_lines = [e for _, group in ex for e in group]
