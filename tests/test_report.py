@@ -24,11 +24,9 @@ from pypdf import PdfReader
 from report_factory import (
     LONG_ID,
     TRICKY_ID,
-    circle_shape,
     harris_transmissibility,
     make_result,
     rectangle_modes,
-    rectangle_shape,
     renamed,
     with_source_file,
 )
@@ -55,8 +53,6 @@ from auditor.report.exports import (
 from auditor.report.figures import (
     frequency_axis_range,
     log_frequency_ticks,
-    marching_squares,
-    merged_cell_runs,
     mode_shape_drawing,
     participation_marker_radius,
 )
@@ -513,77 +509,7 @@ def test_mount_words_from_static_deflection():
     assert digest.mount_text(Mount(), False) == "-"
 
 
-# --- figure pieces against analytic facts ----------------------------------------------------
-
-def test_rectangle_nodal_lines_where_rayleigh_puts_them():
-    # Rayleigh, The Theory of Sound, vol. 1 ch. IX: mode (m, n) of a fixed rectangle,
-    # sin(mπx/Lx) sin(nπy/Ly), has m-1 nodal lines x = k Lx/m and n-1 lines y = k Ly/n.
-    width, length = 1.8, 1.2
-    shape = rectangle_shape("(3,2)", width, length, nx=73, ny=49)
-    lines = marching_squares(shape.x, shape.y, shape.values)
-    points = np.vstack(lines)
-    cell = width / 72
-    expected_x, expected_y = [width / 3, 2 * width / 3], [length / 2]
-    distance = np.minimum(
-        np.min(np.abs(points[:, :1] - np.array(expected_x)[None, :]), axis=1),
-        np.abs(points[:, 1] - expected_y[0]))
-    # interior points only: the fixed edge itself is not a nodal line to draw
-    inner = ((points[:, 0] > cell) & (points[:, 0] < width - cell)
-             & (points[:, 1] > cell) & (points[:, 1] < length - cell))
-    assert inner.sum() > 100
-    assert np.max(distance[inner]) < 0.5 * cell
-    for xk in expected_x:  # each nodal line is drawn along its whole length
-        on = points[np.abs(points[:, 0] - xk) < 0.5 * cell]
-        assert on[:, 1].max() - on[:, 1].min() > 0.95 * length
-    on = points[np.abs(points[:, 1] - length / 2) < 0.5 * cell]
-    assert on[:, 0].max() - on[:, 0].min() > 0.95 * width
-
-
-def test_circle_nodal_circle_and_diameters_from_bessel_zeros():
-    # Kinsler et al., Fundamentals of Acoustics, ch. 4: mode (m, n) = J_m(j_mn r/a) cos(mθ) has m
-    # nodal diameters and n-1 nodal circles at r = a j_mk / j_mn; zeros from scipy.special.
-    diameter = 1.2
-    a = diameter / 2
-    shape = circle_shape("(2,2)", diameter, nx=121)
-    points = np.vstack(marching_squares(shape.x, shape.y, shape.values))
-    r, theta = np.hypot(points[:, 0], points[:, 1]), np.arctan2(points[:, 1], points[:, 0])
-    circle_radius = a * jn_zeros(2, 2)[0] / jn_zeros(2, 2)[1]
-    cell = diameter / 120
-    to_circle = np.abs(r - circle_radius)
-    # cos 2θ = 0 on the diameters θ = π/4 + kπ/2: distance of a point from the nearest one
-    nearest = np.pi / 4 + np.round((theta - np.pi / 4) / (np.pi / 2)) * np.pi / 2
-    to_diameter = r * np.abs(np.sin(theta - nearest))
-    inner = r < a - 2 * cell
-    assert np.max(np.minimum(to_circle, to_diameter)[inner]) < cell
-    assert np.sum(to_circle[inner] < cell) > 50           # the nodal circle is traced
-    quadrants = {int(np.round((t - np.pi / 4) / (np.pi / 2))) % 4
-                 for t in theta[inner & (to_diameter < cell) & (r > 0.5 * a)]}
-    assert quadrants == {0, 1, 2, 3}                       # both diameters, all four arms
-
-
-def test_marching_squares_traces_a_circle_as_one_closed_loop():
-    # Level set of x² + y² (plain geometry): one closed curve of radius 0.7.
-    x = y = np.linspace(-1, 1, 81)
-    xx, yy = np.meshgrid(x, y)
-    lines = marching_squares(x, y, xx**2 + yy**2, level=0.49)
-    assert len(lines) == 1
-    loop = lines[0]
-    assert np.allclose(loop[0], loop[-1])
-    assert np.max(np.abs(np.hypot(loop[:, 0], loop[:, 1]) - 0.7)) < 2e-3
-
-
-def test_positive_and_negative_regions_split_evenly_for_an_antisymmetric_mode():
-    # Mode (2,1) of a rectangle is odd about x = Lx/2 (Rayleigh): + and - areas are equal,
-    # and the merged rectangles cover every cell exactly once.
-    shape = rectangle_shape("(2,1)", 2.0, 1.0, nx=61, ny=31)  # 60 × 30 cells
-    runs = merged_cell_runs(shape.values)
-    area = {k: sum((i1 - i0) * (j1 - j0) for i0, j0, i1, j1 in rects) for k, rects in runs.items()}
-    positive = area.get(1, 0) + area.get(2, 0)
-    negative = area.get(-1, 0) + area.get(-2, 0)
-    assert positive == negative and positive + negative == 60 * 30
-    n_rects = sum(len(r) for r in runs.values())
-    assert n_rects < 60 * 30 / 8  # merged, not one rectangle per cell
-
+# --- figure pieces shared with the charts (the mode-shape pieces: tests/test_figures.py) ----
 
 def test_log_axis_ticks_decades_and_one_two_five():
     # Common practice for log-frequency axes: decades labelled, 2 and 5 between on short spans.

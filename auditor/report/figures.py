@@ -5,8 +5,9 @@ flowables). The writers only read the audit result: frequencies, participation f
 sampled shapes come from the records; nothing here recomputes physics. The interference and
 tuning charts are in ``auditor.report.charts``.
 
-Small pure pieces come first (log-axis ticks, marching squares for the nodal lines, merged runs
-of raster cells for the ± regions); the drawing functions assemble them.
+The style and the log-axis pieces the charts share come first; the mode-shape drawing then
+assembles the ± regions (``auditor.report.shape_regions``) and the nodal lines
+(``auditor.report.nodal_lines``) under the panel's outline.
 """
 
 from __future__ import annotations
@@ -31,6 +32,8 @@ from reportlab.lib.colors import Color, HexColor
 from reportlab.pdfbase.pdfmetrics import stringWidth
 
 from auditor.model import CircleCutout, Mode, Panel, ShapeGrid
+from auditor.report.nodal_lines import level_lines, simplify_polyline
+from auditor.report.shape_regions import layered_cell_runs
 from auditor.report.text import clean_text, format_hz, to_latin1
 
 __all__ = [
@@ -38,11 +41,6 @@ __all__ = [
     "log_frequency_ticks",
     "frequency_axis_range",
     "participation_marker_radius",
-    "marching_squares",
-    "cell_means",
-    "merged_cell_runs",
-    "layered_cell_runs",
-    "simplify_polyline",
     "mode_shape_drawing",
     "shape_legend",
 ]
@@ -210,334 +208,6 @@ def participation_marker_radius(participation: float, smallest: float = 1.8,
 
 
 # ---------------------------------------------------------------------------------------------
-# Nodal lines: marching squares
-# ---------------------------------------------------------------------------------------------
-
-# Edges of a cell: 0 bottom (a-b), 1 right (b-c), 2 top (d-c), 3 left (a-d), with corners
-# a (x_i, y_j), b (x_i+1, y_j), c (x_i+1, y_j+1), d (x_i, y_j+1) and case bits a=1 b=2 c=4 d=8.
-_SEGMENTS: dict[int, tuple[tuple[int, int], ...]] = {
-    1: ((3, 0),), 2: ((0, 1),), 3: ((3, 1),), 4: ((1, 2),), 6: ((0, 2),), 7: ((3, 2),),
-    8: ((3, 2),), 9: ((0, 2),), 11: ((1, 2),), 12: ((3, 1),), 13: ((0, 1),), 14: ((3, 0),),
-}
-# Saddles: (centre above the level, centre below it)
-_SADDLES: dict[int, tuple[tuple[tuple[int, int], ...], tuple[tuple[int, int], ...]]] = {
-    5: (((0, 1), (3, 2)), ((3, 0), (1, 2))),
-    10: (((3, 0), (1, 2)), ((0, 1), (3, 2))),
-}
-
-
-def marching_squares(x: np.ndarray, y: np.ndarray, values: np.ndarray,
-                     level: float = 0.0) -> list[np.ndarray]:
-    """Contour lines of a sampled field at ``level``, joined into polylines.
-
-    Parameters
-    ----------
-    x : ndarray (nx,)  [m]
-    y : ndarray (ny,)  [m]
-    values : ndarray (ny, nx)
-        Samples; NaN marks points outside the region (cells touching one are skipped).
-    level : float
-
-    Returns
-    -------
-    list of ndarray (k, 2)
-        Each polyline's points [m], in order; a closed loop repeats its first point.
-
-    Notes
-    -----
-    Linear interpolation along cell edges; the two ambiguous (saddle) cases are resolved by
-    the mean of the four corners.
-
-    References
-    ----------
-    W. E. Lorensen and H. E. Cline, "Marching cubes: a high resolution 3D surface construction
-    algorithm", Computer Graphics 21(4), 1987 (its two-dimensional form, marching squares).
-    """
-    x = np.asarray(x, float)
-    y = np.asarray(y, float)
-    v = _settle_border_zeros(np.asarray(values, float) - level)
-    ny, nx = v.shape
-    if ny < 2 or nx < 2:
-        return []
-    a, b, c, d = v[:-1, :-1], v[:-1, 1:], v[1:, 1:], v[1:, :-1]
-    valid = np.isfinite(a) & np.isfinite(b) & np.isfinite(c) & np.isfinite(d)
-    case = ((a > 0) * 1 + (b > 0) * 2 + (c > 0) * 4 + (d > 0) * 8).astype(np.int8)
-    case[~valid] = 0
-    centre_above = (a + b + c + d) > 0
-    jj, ii = np.nonzero((case != 0) & (case != 15))
-    if jj.size == 0:
-        return []
-
-    n_horizontal = ny * (nx - 1)
-    # crossing point and id of each of the four edges of every cell the level passes through
-    with np.errstate(divide="ignore", invalid="ignore"):
-        def crossing(p: np.ndarray, q: np.ndarray) -> np.ndarray:
-            return np.clip(np.where(p != q, p / (p - q), 0.5), 0.0, 1.0)
-
-        va, vb, vc, vd = v[jj, ii], v[jj, ii + 1], v[jj + 1, ii + 1], v[jj + 1, ii]
-        x0, x1, y0, y1 = x[ii], x[ii + 1], y[jj], y[jj + 1]
-        t_bottom, t_right = crossing(va, vb), crossing(vb, vc)
-        t_top, t_left = crossing(vd, vc), crossing(va, vd)
-    points = (
-        np.column_stack([x0 + t_bottom * (x1 - x0), y0]),
-        np.column_stack([x1, y0 + t_right * (y1 - y0)]),
-        np.column_stack([x0 + t_top * (x1 - x0), y1]),
-        np.column_stack([x0, y0 + t_left * (y1 - y0)]),
-    )
-    ids = (
-        jj * (nx - 1) + ii,
-        n_horizontal + jj * nx + ii + 1,
-        (jj + 1) * (nx - 1) + ii,
-        n_horizontal + jj * nx + ii,
-    )
-
-    cases = case[jj, ii]
-    centre = centre_above[jj, ii]
-    starts_id: list[np.ndarray] = []
-    ends_id: list[np.ndarray] = []
-    starts_pt: list[np.ndarray] = []
-    ends_pt: list[np.ndarray] = []
-
-    def add(mask: np.ndarray, pair: tuple[int, int]) -> None:
-        if not mask.any():
-            return
-        starts_id.append(ids[pair[0]][mask])
-        ends_id.append(ids[pair[1]][mask])
-        starts_pt.append(points[pair[0]][mask])
-        ends_pt.append(points[pair[1]][mask])
-
-    for k, pairs in _SEGMENTS.items():
-        mask = cases == k
-        for pair in pairs:
-            add(mask, pair)
-    for k, (above, below) in _SADDLES.items():
-        saddle = cases == k
-        for pair in above:
-            add(saddle & centre, pair)
-        for pair in below:
-            add(saddle & ~centre, pair)
-
-    s_id = np.concatenate(starts_id)
-    e_id = np.concatenate(ends_id)
-    point_of: dict[int, np.ndarray] = {}
-    for key_list, pts in ((s_id.tolist(), np.concatenate(starts_pt)),
-                          (e_id.tolist(), np.concatenate(ends_pt))):
-        point_of.update(zip(key_list, pts, strict=False))
-    return _join_segments(s_id.tolist(), e_id.tolist(), point_of)
-
-
-def _settle_border_zeros(v: np.ndarray, tiny: float = 1e-9) -> np.ndarray:
-    """Give samples sitting exactly on the level (a fixed edge) the sign of their neighbours.
-
-    A clamped edge samples as exact zeros; left alone, marching squares would trace the edge
-    itself and cut the corners of the panel. A zero whose significant neighbours (8 around it)
-    all share one sign takes that sign at a negligible magnitude; a zero between both signs (a
-    true nodal line through the samples) stays on the level.
-    """
-    scale = np.nanmax(np.abs(v)) if np.isfinite(v).any() else 0.0
-    if scale == 0.0:
-        return v
-    threshold = tiny * scale
-    flat = np.isfinite(v) & (np.abs(v) <= threshold)
-    if not flat.any():
-        return v
-    padded = np.pad(v, 1, constant_values=np.nan)
-    positive = np.zeros(v.shape, dtype=np.int16)
-    negative = np.zeros(v.shape, dtype=np.int16)
-    ny, nx = v.shape
-    for dj in (-1, 0, 1):
-        for di in (-1, 0, 1):
-            if dj == 0 and di == 0:
-                continue
-            neighbour = padded[1 + dj:1 + dj + ny, 1 + di:1 + di + nx]
-            with np.errstate(invalid="ignore"):
-                positive += neighbour > threshold
-                negative += neighbour < -threshold
-    out = v.copy()
-    out[flat & (positive > 0) & (negative == 0)] = 0.5 * threshold
-    out[flat & (negative > 0) & (positive == 0)] = -0.5 * threshold
-    mixed = flat & ~((positive > 0) & (negative == 0)) & ~((negative > 0) & (positive == 0))
-    out[mixed] = 0.0
-    return out
-
-
-def _join_segments(starts: list[int], ends: list[int],
-                   point_of: dict[int, np.ndarray]) -> list[np.ndarray]:
-    """Chain segments (pairs of edge ids) into polylines; each edge id joins at most two."""
-    neighbours: dict[int, list[int]] = {}
-    for s, e in zip(starts, ends, strict=False):
-        if s == e:
-            continue
-        neighbours.setdefault(s, []).append(e)
-        neighbours.setdefault(e, []).append(s)
-    lines: list[np.ndarray] = []
-
-    def take(a: int, b: int) -> None:
-        neighbours[a].remove(b)
-        neighbours[b].remove(a)
-
-    def walk(start: int) -> list[int]:
-        chain = [start]
-        current = start
-        while neighbours[current]:
-            nxt = neighbours[current][0]
-            take(current, nxt)
-            chain.append(nxt)
-            current = nxt
-        return chain
-
-    # open chains first (ends of degree 1), then the closed loops
-    for node in [n for n, adjacent in neighbours.items() if len(adjacent) == 1]:
-        if neighbours[node]:
-            lines.append(np.array([point_of[k] for k in walk(node)]))
-    for node in list(neighbours):
-        if neighbours[node]:
-            lines.append(np.array([point_of[k] for k in walk(node)]))
-    return [line for line in lines if len(line) >= 2]
-
-
-# ---------------------------------------------------------------------------------------------
-# ± regions: raster cells merged into rectangles
-# ---------------------------------------------------------------------------------------------
-
-def cell_means(values: np.ndarray, partial: bool = False) -> np.ndarray:
-    """Mean of the corners of each cell between samples, NaN for a cell outside the region.
-
-    Only cells with all four corners inside count, or with ``partial`` every cell with at
-    least one (for drawing under a clipping outline). Shape (ny-1, nx-1).
-    """
-    v = np.asarray(values, float)
-    corners = np.stack([v[:-1, :-1], v[:-1, 1:], v[1:, 1:], v[1:, :-1]])
-    valid = np.isfinite(corners)
-    count = valid.sum(axis=0)
-    total = np.where(valid, corners, 0.0).sum(axis=0)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        return np.where(count >= (1 if partial else 4), total / np.maximum(count, 1), np.nan)
-
-
-def _classes(mean: np.ndarray, strong: float | None) -> np.ndarray:
-    cls = np.zeros(mean.shape, dtype=np.int8)
-    finite = np.isfinite(mean)
-    m = np.where(finite, mean, 0.0)
-    cls[finite & (m > 0)] = 1
-    cls[finite & (m < 0)] = -1
-    if strong is not None:
-        cls[finite & (np.abs(m) >= strong)] *= 2
-    return cls
-
-
-def _runs(cls: np.ndarray) -> dict[int, list[tuple[int, int, int, int]]]:
-    """Rectangles of equal non-zero class: runs along rows, grown down while repeated."""
-    out: dict[int, list[tuple[int, int, int, int]]] = {}
-    n_rows, n_cols = cls.shape
-    if n_rows == 0 or n_cols == 0:
-        return out
-    starts = np.ones(cls.shape, dtype=bool)
-    starts[:, 1:] = cls[:, 1:] != cls[:, :-1]
-    rows, cols = np.nonzero(starts)                     # row-major order
-    ends = np.r_[cols[1:], n_cols]
-    ends[np.r_[rows[1:] != rows[:-1], True]] = n_cols   # a row's last run ends at the edge
-    kinds = cls[rows, cols]
-    open_runs: dict[tuple[int, int, int], int] = {}
-    current: dict[tuple[int, int, int], int] = {}
-    row_now = 0
-    for j, i0, i1, k in zip(rows.tolist(), cols.tolist(), ends.tolist(), kinds.tolist(),
-                            strict=True):
-        if j != row_now:
-            for (a, b, kk), j0 in open_runs.items():
-                out.setdefault(kk, []).append((a, j0, b, row_now))
-            open_runs, current = current, {}
-            row_now = j
-        if k == 0:
-            continue
-        key = (i0, i1, k)
-        current[key] = open_runs.pop(key, j)
-    for (a, b, kk), j0 in open_runs.items():
-        out.setdefault(kk, []).append((a, j0, b, row_now))
-    for (a, b, kk), j0 in current.items():
-        out.setdefault(kk, []).append((a, j0, b, row_now + 1))
-    return out
-
-
-def merged_cell_runs(values: np.ndarray, strong: float = 0.5,
-                     partial: bool = False) -> dict[int, list[tuple[int, int, int, int]]]:
-    """Group the cells between samples into rectangles of equal class.
-
-    A cell takes the class of the mean of its corners inside the region (see
-    :func:`cell_means`): +2 / -2 where that mean is at least ``strong`` in magnitude, +1 / -1
-    otherwise. Equal neighbouring cells along a row merge into a run; a run repeated exactly on
-    the next row grows downwards instead of starting a new rectangle.
-
-    Returns
-    -------
-    dict class -> list of (i0, j0, i1, j1)
-        Cell-index rectangles, half-open: columns i0..i1-1, rows j0..j1-1.
-    """
-    return _runs(_classes(cell_means(values, partial), strong))
-
-
-def layered_cell_runs(values: np.ndarray, strong: float = 0.5, partial: bool = False
-                      ) -> tuple[dict[int, list[tuple[int, int, int, int]]],
-                                 dict[int, list[tuple[int, int, int, int]]]]:
-    """The same picture as :func:`merged_cell_runs` in two layers, for painting in order.
-
-    First the sign regions (classes +1 / -1 over every cell), then the strong parts (+2 / -2)
-    on top. Sign regions are bounded by the nodal lines only, so they merge into far fewer
-    rectangles than the four-class picture.
-    """
-    mean = cell_means(values, partial)
-    signs = _classes(mean, None)
-    strong_only = np.where(np.abs(np.nan_to_num(mean)) >= strong, 2 * signs, 0).astype(np.int8)
-    return _runs(signs), _runs(strong_only)
-
-
-def simplify_polyline(points: np.ndarray, tolerance: float) -> np.ndarray:
-    """Drop points closer than ``tolerance`` to the chord of their neighbours
-    (Ramer-Douglas-Peucker).
-
-    References
-    ----------
-    D. H. Douglas and T. K. Peucker, "Algorithms for the reduction of the number of points
-    required to represent a digitized line or its caricature", The Canadian Cartographer
-    10(2), 1973.
-    """
-    pts = np.asarray(points, float)
-    if len(pts) < 3:
-        return pts
-    # exactly collinear interior points go first, in one vectorised pass (shape unchanged)
-    before, here, after = pts[:-2], pts[1:-1], pts[2:]
-    chord = after - before
-    cross = np.abs(chord[:, 0] * (here[:, 1] - before[:, 1])
-                   - chord[:, 1] * (here[:, 0] - before[:, 0]))
-    straight = cross <= 1e-9 * (np.hypot(chord[:, 0], chord[:, 1]) ** 2 + 1e-300)
-    if straight.any():
-        pts = pts[np.r_[True, ~straight, True]]
-        if len(pts) < 3:
-            return pts
-    keep = np.zeros(len(pts), dtype=bool)
-    keep[0] = keep[-1] = True
-    stack = [(0, len(pts) - 1)]
-    while stack:
-        first, last = stack.pop()
-        if last <= first + 1:
-            continue
-        a, b = pts[first], pts[last]
-        seg = pts[first + 1:last]
-        d = b - a
-        length = math.hypot(d[0], d[1])
-        if length == 0.0:
-            dist = np.hypot(seg[:, 0] - a[0], seg[:, 1] - a[1])
-        else:
-            dist = np.abs(d[0] * (seg[:, 1] - a[1]) - d[1] * (seg[:, 0] - a[0])) / length
-        k = int(np.argmax(dist))
-        if dist[k] > tolerance:
-            mid = first + 1 + k
-            keep[mid] = True
-            stack += [(first, mid), (mid, last)]
-    return pts[keep]
-
-
-# ---------------------------------------------------------------------------------------------
 # Mode-shape drawing
 # ---------------------------------------------------------------------------------------------
 
@@ -616,7 +286,7 @@ def mode_shape_drawing(shape: ShapeGrid, panel: Panel | None, mode: Mode | None,
         # strong parts as smooth outlines where their contour closes, else as cell runs
         smooth: dict[int, list[np.ndarray]] = {}
         for sign in (1, -1):
-            loops = marching_squares(x, y, sign * values, STRONG_LEVEL)
+            loops = level_lines(x, y, sign * values, STRONG_LEVEL)
             if loops and all(len(p) > 3 and np.allclose(p[0], p[-1]) for p in loops):
                 smooth[2 * sign] = loops
         for k in smooth:
@@ -643,7 +313,7 @@ def mode_shape_drawing(shape: ShapeGrid, panel: Panel | None, mode: Mode | None,
             group.add(path)
         nodal = Path(strokeColor=_colour(style.nodal), strokeWidth=0.8, fillColor=None,
                      strokeLineJoin=1, strokeLineCap=1)
-        for line in marching_squares(x, y, values, 0.0):
+        for line in level_lines(x, y, values, 0.0):
             pts = simplify_polyline(np.column_stack([ox + scale * line[:, 0],
                                                      oy + scale * line[:, 1]]), 0.15)
             nodal.moveTo(float(pts[0, 0]), float(pts[0, 1]))
