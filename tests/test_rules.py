@@ -8,21 +8,28 @@ import math
 
 import numpy as np
 import pytest
+from reference_models import ideal_membrane_modes as membrane_modes
+from reference_models import ideal_membrane_modes_to
 from scipy.optimize import brentq
 
 from auditor.excitation import excitations_for
 from auditor.judgement.response import (
-    modal_amplification, modal_density, modal_overlap_factor, modal_overlap_frequency_hz,
-    response_db, weyl_mode_count,
+    modal_amplification,
+    modal_density,
+    modal_overlap_factor,
+    modal_overlap_frequency_hz,
+    response_db,
+    weyl_mode_count,
 )
 from auditor.judgement.screening import (
-    assessment_limit_hz, evaluate_panel, reaching, separation,
+    assessment_limit_hz,
+    evaluate_panel,
+    reaching,
+    separation,
 )
 from auditor.judgement.verdict import assess_panel, panel_area
 from auditor.model import Equipment, Excitation, Mode, Panel, SourceRef
 from auditor.rules import RuleSetError, list_rulesets, load_ruleset, parse_ruleset, rules_dir
-from reference_models import ideal_membrane_modes as membrane_modes
-from reference_models import ideal_membrane_modes_to
 
 SRC = SourceRef(file="p.xlsx", sheet="Panels", row=3)
 # The bundled standard set, with structure-borne pairs held to the full margins (its support
@@ -465,7 +472,7 @@ def test_modal_overlap_frequency_solves_m_equals_one():
     # found numerically (scipy.optimize.brentq), membrane and prestressed plate.
     for args in ((0.03, 15.36, 0.25, 1200.0, 0.0), (0.02, 1.0, 4.0, 300.0, 12.0)):
         f = modal_overlap_frequency_hz(*args)
-        root = brentq(lambda x: modal_overlap_factor(x, *args) - 1.0, 1e-3, 1e6)
+        root = brentq(lambda x, a=args: modal_overlap_factor(x, *a) - 1.0, 1e-3, 1e6)
         assert f == pytest.approx(root, rel=1e-9)
     # the 4.8 × 3.2 m film of 0.25 kg/m² at 1200 N/m with η = 0.03: f = √(T/(2π η A ρs))
     assert modal_overlap_frequency_hz(0.03, 15.36, 0.25, 1200.0) == pytest.approx(
