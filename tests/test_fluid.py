@@ -1,4 +1,5 @@
-"""Air loading, sealed cavities and porosity (auditor.physics.fluid, auditor.physics.materials).
+"""Air loading, sealed cavities and porosity (auditor.physics.fluid and the modules of its
+steps: added_mass, quadrature, radiation, cavity, coupled, porous; auditor.physics.materials).
 
 Every check compares with something outside the project: a published result (named beside
 it), a general-purpose reference library (scipy.special), or a fact of the trade (marked
@@ -13,7 +14,7 @@ import numpy as np
 import pytest
 from scipy import special
 
-from auditor.physics import fluid, materials, membrane
+from auditor.physics import added_mass, fluid, materials, membrane, quadrature, radiation
 from auditor.physics.basis import CircleRegion, ModalBasis, RectangleRegion
 from auditor.physics.cache import SolveCache
 
@@ -40,7 +41,8 @@ def _single_shape_basis(region, shape) -> ModalBasis:
 
 
 def _rectangle(tension, density, width, length):
-    return lambda f: membrane.rectangular_membrane_basis(tension, tension, density, width, length, f)
+    return lambda f: membrane.rectangular_membrane_basis(tension, tension, density, width,
+                                                         length, f)
 
 
 RADIUS = 0.5
@@ -65,7 +67,8 @@ def test_piston_low_frequency_radiation_mass_and_resistance():
     ka = 0.05
     frequency = ka * C / (2 * np.pi * RADIUS)
     impedance = fluid.baffled_air_impedance(PISTON, frequency, air_density=RHO, speed_of_sound=C)
-    assert impedance.resistance[0, 0] == pytest.approx(RHO * C * np.pi * RADIUS**2 * ka**2 / 2, rel=3e-3)
+    assert impedance.resistance[0, 0] == pytest.approx(RHO * C * np.pi * RADIUS**2 * ka**2 / 2,
+                                                       rel=3e-3)
     assert impedance.added_mass[0, 0] == pytest.approx(8.0 / 3.0 * RHO * RADIUS**3, rel=3e-3)
 
 
@@ -96,7 +99,8 @@ def test_unit_square_inverse_distance_integral():
     # classical closed form for a square, from memory), through the point quadrature.
     square = _single_shape_basis(RectangleRegion(1.0, 1.0), lambda p: np.ones(len(p)))
     kernel = fluid.baffled_added_mass(square, 1.0)[0, 0] * 2 * np.pi
-    assert kernel == pytest.approx(4 * math.log(1 + math.sqrt(2)) - 4.0 / 3.0 * (math.sqrt(2) - 1), rel=2e-3)
+    assert kernel == pytest.approx(4 * math.log(1 + math.sqrt(2))
+                                   - 4.0 / 3.0 * (math.sqrt(2) - 1), rel=2e-3)
 
 
 def test_analytic_rectangle_and_disc_agree_with_point_quadrature():
@@ -105,10 +109,10 @@ def test_analytic_rectangle_and_disc_agree_with_point_quadrature():
     for basis in (membrane.rectangular_membrane_basis(500, 300, 0.25, 1.2, 0.7, 60),
                   membrane.circular_membrane_basis(500, 0.25, 0.6, 70)):
         analytic = fluid.baffled_added_mass(basis, RHO)
-        family = fluid._point_family(basis, cells_target=4000)
-        quadrature = RHO * fluid._points_added_mass_normalised(family) / (2 * np.pi)
+        family = quadrature.point_shapes(basis, cells_target=4000)
+        by_points = RHO * added_mass._points_added_mass_normalised(family) / (2 * np.pi)
         scale = np.max(np.abs(analytic))
-        assert np.max(np.abs(analytic - quadrature)) < 2e-3 * scale
+        assert np.max(np.abs(analytic - by_points)) < 2e-3 * scale
 
 
 @pytest.mark.parametrize("basis", [
@@ -193,7 +197,8 @@ def test_mass_air_mass_resonance_of_a_limp_panel():
     estimates = []
     for count in (50, 200):
         def basis_for(f, count=count):
-            return membrane.rectangular_membrane_basis(0.5, 0.5, m, size, size, math.inf, max_modes=count)
+            return membrane.rectangular_membrane_basis(0.5, 0.5, m, size, size, math.inf,
+                                                       max_modes=count)
 
         loaded = fluid.loaded_modes(basis_for, m, fmax=400, max_modes=count, room_side="none",
                                     plenum_side="sealed", cavity_depth=d, max_basis=count)
@@ -247,15 +252,18 @@ def test_porous_limits():
     vacuum = fluid.loaded_modes(basis_for, 0.25, fmax=60, room_side="none", plenum_side="none",
                                 material="fabric")
     tight = fluid.loaded_modes(basis_for, 0.25, fmax=60, material="fabric", airflow_resistance=1e9)
-    open_weave = fluid.loaded_modes(basis_for, 0.25, fmax=60, material="fabric", airflow_resistance=1e-4)
+    open_weave = fluid.loaded_modes(basis_for, 0.25, fmax=60, material="fabric",
+                                    airflow_resistance=1e-4)
     k = 4
     assert np.allclose(tight.frequencies_hz[:k], impervious.frequencies_hz[:k], rtol=1e-5)
     assert np.allclose(tight.loss_factor[:k], impervious.loss_factor[:k], rtol=1e-3)
     assert np.allclose(open_weave.frequencies_hz[:k], vacuum.frequencies_hz[:k], rtol=1e-5)
-    assert np.allclose(open_weave.loss_factor[:k], materials.DEFAULT_LOSS_FACTORS["fabric"], rtol=1e-3)
+    assert np.allclose(open_weave.loss_factor[:k], materials.DEFAULT_LOSS_FACTORS["fabric"],
+                       rtol=1e-3)
     # In between, the flow through the weave dissipates: the loss factor exceeds the
     # structural one and the frequency lies between the two limits.
-    middle = fluid.loaded_modes(basis_for, 0.25, fmax=60, material="fabric", airflow_resistance=100.0)
+    middle = fluid.loaded_modes(basis_for, 0.25, fmax=60, material="fabric",
+                                airflow_resistance=100.0)
     assert impervious.frequencies_hz[0] < middle.frequencies_hz[0] < vacuum.frequencies_hz[0]
     assert middle.loss_factor[0] > impervious.loss_factor[0] + 0.1
 
@@ -266,7 +274,8 @@ def test_open_mesh_without_resistance_carries_no_air():
     basis_for = _rectangle(2000, 1.5, 1.0, 1.0)
     loaded = fluid.loaded_modes(basis_for, 1.5, fmax=200, material="mesh")
     basis = basis_for(200)
-    assert np.allclose(loaded.frequencies_hz, basis.frequencies_hz[basis.frequencies_hz <= 200][:60])
+    assert np.allclose(loaded.frequencies_hz,
+                       basis.frequencies_hz[basis.frequencies_hz <= 200][:60])
     assert np.allclose(loaded.loss_factor, materials.DEFAULT_LOSS_FACTORS["mesh"])
     assert "no air mass loading" in loaded.model
 
@@ -318,7 +327,8 @@ def test_structural_loss_factor_defaults_and_given_values():
         assert low <= materials.structural_loss_factor(material) <= high
     assert materials.structural_loss_factor(" Film ") == materials.DEFAULT_LOSS_FACTORS["film"]
     assert materials.structural_loss_factor("fabric", 0.12) == 0.12
-    assert materials.structural_loss_factor("plate", float("nan")) == materials.DEFAULT_LOSS_FACTORS["plate"]
+    assert (materials.structural_loss_factor("plate", float("nan"))
+            == materials.DEFAULT_LOSS_FACTORS["plate"])
     with pytest.raises(ValueError, match="unknown material"):
         materials.structural_loss_factor("timber")
     with pytest.raises(ValueError, match="between 0 and 1"):
@@ -467,7 +477,7 @@ def test_rectangle_self_terms_against_adaptive_quadrature_at_any_order():
         return 4 * alpha**2 / (2 * math.pi) * (a + b)
 
     for alpha, m, n in ((2 / 3, 1, 1), (2 / 3, 3, 2), (1.5, 1, 5), (1.0, 12, 9)):
-        table = fluid._rectangle_self_table(alpha, 16, 16)
+        table = added_mass.rectangle_self_table(alpha, 16, 16)
         assert table[m - 1, n - 1] == pytest.approx(reference(alpha, m, n), rel=1e-7)
     # High orders, where the integrand has hundreds of half-periods: against the same Duffy
     # form summed by a tensor Gauss–Legendre rule of 900 × 900 points (numpy's leggauss).
@@ -484,7 +494,7 @@ def test_rectangle_self_terms_against_adaptive_quadrature_at_any_order():
                    / np.hypot(1, tau))
             + np.sum(weight * correlations(m, tau * sigma) * correlations(n, tau)
                      / np.hypot(sigma, 1)))
-    table = fluid._rectangle_self_table(1.0, 192, 192)
+    table = added_mass.rectangle_self_table(1.0, 192, 192)
     assert table[m - 1, n - 1] == pytest.approx(4 / (2 * math.pi) * both, rel=1e-8)
 
 
@@ -495,12 +505,12 @@ def test_point_quadrature_spectra_agree_with_the_closed_form_sine_transforms():
     # must give the same angular densities g(κ) to the accuracy of its quadrature.
     basis = membrane.rectangular_membrane_basis(500, 500, 0.25, 1.2, 0.8, 60)
     cache = SolveCache()
-    analytic = fluid._recognise(basis, cache)
-    points = fluid._point_family(basis, cells_target=6000)
-    kappa = fluid._kappa_grid(analytic, 2 * np.pi * 1.5 * 60 / 343.0)
+    analytic = quadrature.quadrature_family(basis, cache)
+    points = quadrature.point_shapes(basis, cells_target=6000)
+    kappa = radiation.kappa_grid(analytic, 2 * np.pi * 1.5 * 60 / 343.0)
     coefficients = np.eye(len(basis))[:, :6]
-    exact = fluid._SpectralGrid(analytic, kappa).density(coefficients)
-    stepped = fluid._SpectralGrid(points, kappa, cache=cache).density(coefficients)
+    exact = radiation.SpectralGrid(analytic, kappa).density(coefficients)
+    stepped = radiation.SpectralGrid(points, kappa, cache=cache).density(coefficients)
     assert np.max(np.abs(stepped - exact)) < 2e-3 * np.max(np.abs(exact))
 
 

@@ -23,6 +23,7 @@ import numpy as np
 from auditor.model import CircleCutout, Mode, Panel, ShapeGrid
 from auditor.physics import fem, fluid, membrane, uncoupled
 from auditor.physics.basis import ModalBasis, complete_below
+from auditor.physics.basis_reach import REACH_MASS_MARGIN
 from auditor.physics.cache import SolveCache
 from auditor.physics.geometry import outline_problems, signed_area
 from auditor.physics.materials import structural_loss_factor
@@ -419,7 +420,7 @@ def _reach_in_air(panel: Panel, fmax: float, air_density: float) -> float:
     tension = math.sqrt(panel.tension_x * panel.tension_y)
     wavenumber = 2 * math.pi * fmax * math.sqrt(panel.areal_density / tension)
     ratio = sides * air_density / (max(wavenumber, 1e-12) * panel.areal_density)
-    return fmax * min(math.sqrt(1.0 + fluid.REACH_MASS_MARGIN * ratio), MAX_REACH_FACTOR)
+    return fmax * min(math.sqrt(1.0 + REACH_MASS_MARGIN * ratio), MAX_REACH_FACTOR)
 
 
 def _in_air(panel: Panel, build, notes, fmax: float, cap: int | None, air_density: float,
@@ -445,7 +446,7 @@ def _in_air(panel: Panel, build, notes, fmax: float, cap: int | None, air_densit
             # Every mode above the coupled basis, each with its own air load: the basis must
             # reach the in-vacuo frequency of any mode that could be loaded down to fmax, at
             # most f_b √(1 + 1.25 μ) above it (μ the top modes' air mass ratio; see
-            # fluid._coupled_reach).
+            # basis_reach.coupled_reach).
             reach = fmax * min(basis.complete_to / max(complete, 1e-300), MAX_REACH_FACTOR)
             extended = build(reach, max_modes=None)
         if _is_prefix(loaded.basis, extended):

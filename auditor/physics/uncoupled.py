@@ -33,8 +33,8 @@ add), and the count below 100, 150, 200 Hz the same (one mode of 98 below 180 Hz
 above it). The coupling the estimate leaves out shifts each mode by about that much; a
 conflict margin of ±10 % is far wider. Radiation damping is left out (a subsonic mode of a film
 radiates mostly from its edges and corners: up to 0.003 at 250 Hz on the film above, against a
-structural 0.03): the loss factor is structural (and porous flow). A mode whose wavenumber is not clearly subsonic (k_p < 1.2 k0) is not
-estimated: the list is complete only below it.
+structural 0.03): the loss factor is structural (and porous flow). A mode whose wavenumber is
+not clearly subsonic (k_p < 1.2 k0) is not estimated: the list is complete only below it.
 
 References
 ----------
@@ -55,9 +55,19 @@ from functools import lru_cache
 import numpy as np
 from scipy import special
 
-from auditor.physics import fluid
+from auditor.physics.added_mass import (
+    angular_weight,
+    bessel_transform,
+    bessel_zeros,
+    hankel_rule,
+    rectangle_self_table,
+    rounded_up,
+)
 from auditor.physics.basis import DiscShapes, ModalBasis, PolygonRegion, RectangleShapes
+from auditor.physics.basis_reach import REACH_MASS_MARGIN
 from auditor.physics.cache import SolveCache
+from auditor.physics.loading_inputs import AIR_DENSITY, SPEED_OF_SOUND
+from auditor.physics.quadrature import quadrature_family
 
 __all__ = ["UncoupledModes", "SUBSONIC_MARGIN", "self_added_mass", "mode_wavenumbers",
            "uncoupled_loaded_modes"]
@@ -107,7 +117,7 @@ def mode_wavenumbers(basis: ModalBasis, indices, cache: SolveCache | None = None
     indices = np.asarray(indices, dtype=int)
     region = basis.region
     if not isinstance(region, PolygonRegion):
-        family = fluid._recognise(basis, SolveCache() if cache is None else cache)
+        family = quadrature_family(basis, SolveCache() if cache is None else cache)
         if isinstance(family, RectangleShapes):
             return np.pi * np.hypot(family.m[indices] / family.width,
                                     family.n[indices] / family.length)
@@ -134,14 +144,14 @@ def self_added_mass(basis: ModalBasis, indices, cache: SolveCache | None = None
     if len(indices) == 0:
         return np.zeros(0), True
     if not isinstance(basis.region, PolygonRegion):
-        family = fluid._recognise(basis, cache)
+        family = quadrature_family(basis, cache)
         if isinstance(family, RectangleShapes):
             m, n = family.m[indices], family.n[indices]
             aspect = float(f"{family.length / family.width:.12g}")
             m_count, n_count = _table_size(int(m.max())), _table_size(int(n.max()))
             table = cache.rectangle_tables.get(
                 ("self", aspect, m_count, n_count),
-                lambda: fluid._rectangle_self_table(aspect, m_count, n_count))
+                lambda: rectangle_self_table(aspect, m_count, n_count))
             return family.width**3 * table[m - 1, n - 1], True
         if isinstance(family, DiscShapes):
             result = np.empty(len(indices))
@@ -149,11 +159,11 @@ def self_added_mass(basis: ModalBasis, indices, cache: SolveCache | None = None
             for m in np.unique(order):
                 here = np.flatnonzero(order == m)
                 rank = family.radial[indices[here]]
-                count = fluid._rounded_up(int(rank.max()) + 1)
+                count = rounded_up(int(rank.max()) + 1)
                 diagonal = _disc_self(int(m), count)[rank]
                 scale = family.scale[indices[here]]
-                # as fluid._disc_added_mass, divided by 2π: a³ ε_m scale² ∫h_p² dx
-                result[here] = (family.radius**3 * float(fluid._angular_weight(int(m)))
+                # as added_mass._disc_added_mass, divided by 2π: a³ ε_m scale² ∫h_p² dx
+                result[here] = (family.radius**3 * float(angular_weight(int(m)))
                                 * scale**2 * diagonal)
             return result, True
     area = float(basis.region.area)
@@ -174,14 +184,14 @@ def _table_size(count: int) -> int:
 @lru_cache(maxsize=1024)
 def _disc_self(order: int, count: int) -> np.ndarray:
     """∫₀^∞ h_p(x)² dx for the first ``count`` zeros of J_m (the diagonal of
-    ``fluid._disc_order_table``)."""
-    zeros = fluid._bessel_zeros(order, count)
+    ``added_mass._disc_order_table``)."""
+    zeros = bessel_zeros(order, count)
     # Eight Gauss points per π (the integrand's period): within 1e-9 of ten per π/2, where
     # the range's truncation leaves about 1e-6 (measured against a range and a rule ten
     # times longer and finer).
-    x, w = fluid._hankel_rule(240.0 + 2.0 * float(zeros[-1]), 8, np.pi)
+    x, w = hankel_rule(240.0 + 2.0 * float(zeros[-1]), 8, np.pi)
     tail_start = x[-1] + (x[-1] - x[-2])
-    h = fluid._bessel_transform(order, zeros, x)
+    h = bessel_transform(order, zeros, x)
     c = zeros * special.jv(order + 1.0, zeros)
     diagonal = (h * h) @ w + c * c / (4.0 * np.pi * tail_start**4)
     diagonal.setflags(write=False)   # memoised (a pure function of two whole numbers)
@@ -199,8 +209,8 @@ def uncoupled_loaded_modes(
     cavity_depth: float | None,
     airflow_resistance: float | None,
     structural_loss_factor: float,
-    air_density: float = fluid.AIR_DENSITY,
-    speed_of_sound: float = fluid.SPEED_OF_SOUND,
+    air_density: float = AIR_DENSITY,
+    speed_of_sound: float = SPEED_OF_SOUND,
     cache: SolveCache | None = None,
 ) -> UncoupledModes:
     """Loaded modes of basis modes ``first`` onward, each with its own air load.
@@ -271,12 +281,12 @@ def uncoupled_loaded_modes(
     # beyond the basis lies above its reach in vacuo, loaded by at most the top tenth's ratio.
     top = np.arange(max(0, len(indices) - max(1, len(indices) // 10)), len(indices))
     ratio = float(np.max(np.abs(effective[top]) / structural))
-    complete = min(fmax, reach / math.sqrt(1.0 + fluid.REACH_MASS_MARGIN * ratio))
+    complete = min(fmax, reach / math.sqrt(1.0 + REACH_MASS_MARGIN * ratio))
     if not np.all(valid):
         # a mode not estimated: the list stops below the lowest it could be loaded to
         largest = float(np.max(np.abs(effective) / structural))
         lowest = float(np.min(vacuum[indices][~valid]))
-        complete = min(complete, lowest / math.sqrt(1.0 + fluid.REACH_MASS_MARGIN * largest))
+        complete = min(complete, lowest / math.sqrt(1.0 + REACH_MASS_MARGIN * largest))
     keep = np.flatnonzero(valid & (frequencies <= fmax))
     keep = keep[np.argsort(frequencies[keep], kind="stable")]
     return UncoupledModes(indices[keep], frequencies[keep], loss[keep], complete)

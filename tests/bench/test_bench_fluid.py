@@ -45,7 +45,8 @@ def _panels():
 
 def _basis_for(shape, first, second, tension, density):
     if shape == "rectangle":
-        return lambda f: membrane.rectangular_membrane_basis(tension, tension, density, first, second, f)
+        return lambda f: membrane.rectangular_membrane_basis(tension, tension, density, first,
+                                                             second, f)
     return lambda f: membrane.circular_membrane_basis(tension, density, first, f)
 
 
@@ -73,8 +74,10 @@ def _run_timed():
                                   fmax=FMAX, max_modes=MAX_MODES, basis_extent=3.0, max_basis=1500)
         error = abs(results[index].frequencies_hz[0] / fine.frequencies_hz[0] - 1.0)
         worst = max(worst, error)
-        lines.append(f"  panel {index:4d} {shape:9s}: fundamental {results[index].frequencies_hz[0]:8.3f} Hz "
-                     f"(basis {len(results[index].basis)}), finer reference {fine.frequencies_hz[0]:8.3f} Hz "
+        lines.append(f"  panel {index:4d} {shape:9s}: fundamental "
+                     f"{results[index].frequencies_hz[0]:8.3f} Hz "
+                     f"(basis {len(results[index].basis)}), finer reference "
+                     f"{fine.frequencies_hz[0]:8.3f} Hz "
                      f"(basis {len(fine.basis)}), difference {100 * error:.4f} %")
     lines.append(f"  worst fundamental difference {100 * worst:.4f} %")
     return {"elapsed": elapsed, "cpu": cpu, "worst": worst, "lines": lines}
@@ -113,7 +116,8 @@ def test_thousand_film_panels_in_twenty_seconds():
     # before numpy loads), so the figure does not depend on what else the machine runs.
     env = dict(os.environ, OPENBLAS_NUM_THREADS="1", OMP_NUM_THREADS="1", MKL_NUM_THREADS="1")
     completed = subprocess.run([sys.executable, __file__], env=env, capture_output=True,
-                               text=True, check=True, cwd=os.path.dirname(os.path.abspath(__file__)))
+                               text=True, check=True,
+                               cwd=os.path.dirname(os.path.abspath(__file__)))
     figures = json.loads(completed.stdout.strip().splitlines()[-1])
     print("\n" + "\n".join(figures["lines"]))
     assert figures["worst"] < 0.005
