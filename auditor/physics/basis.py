@@ -1,7 +1,9 @@
 """The in-vacuo modal basis: the one interface between geometry and everything after it.
 
 geometry → ``ModalBasis`` (membrane.py analytic, fem.py numerical) → a loading step
-(fluid.py: air, cavity, porosity) → reported modes (modes.py).
+(fluid.py, the entry over quadrature, added_mass, radiation, cavity, coupled and porous)
+→ reported modes (modes.py). The analytic bases say what their shapes are
+(:data:`ShapeFamily`), and the loading step dispatches on that type.
 
 Conventions (all bases keep them, so the loading step needs no special cases):
 

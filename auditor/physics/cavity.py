@@ -95,7 +95,6 @@ def _disc_cavity(family: DiscShapes, depth: float) -> CavityCoupling:
         count = int(np.sum(family.order == m)) + 12
         beta = (special.jnp_zeros(m, count) if m > 0
                 else np.concatenate([[0.0], special.jnp_zeros(0, count)]))
-        radial = []
         j = family.zero[block][:, None]
         jm1 = special.jv(m + 1.0, family.zero[block])[:, None]
         b = beta[None, :]

@@ -17,7 +17,8 @@ plate         0.005 – 0.02    0.01      thin metal or composite sheet (with fi
 ============  ==============  ========  ===================================================
 
 Air adds its own losses (sound radiation, flow through a porous fabric); those are computed by
-:mod:`auditor.physics.fluid`, not included here.
+the loading step (:mod:`auditor.physics.radiation` for radiation, :mod:`auditor.physics.porous`
+for flow through fabric), not included here.
 """
 
 from __future__ import annotations

@@ -193,18 +193,17 @@ def porous_modes(system: ModalSystem, blocks, f_reach: float, count: int) -> lis
     for j, (_, block, _) in enumerate(found):
         size = len(block)
         vector, root = refined[j]
-        if True:
-            # Unit panel norm, dominant panel coordinate real and positive.
-            dominant = vector[np.argmax(np.abs(vector[:size]))]
-            vector = vector * (abs(dominant) / dominant) / np.linalg.norm(vector[:size])
-            q, u = vector[:size], vector[size:]
-            frequency = root.real / (2 * np.pi)
-            stiffness, mass, _ = _porous_operator(system, block, frequency)
-            numerator = complex(q @ stiffness[:size, :size] @ q + u @ stiffness[size:, size:] @ u)
-            full, air = np.zeros(n, complex), np.zeros(n, complex)
-            full[block], air[block] = q, u
-            # Kinetic mass of the panel and the air moving with it (radiation loss factor).
-            kinetic = float(np.real(np.conj(vector) @ (mass.real @ vector)))
-            followed.append(FollowedMode(math.sqrt(max((root**2).real, 0.0)) / (2 * np.pi),
-                                         full, air, numerator, numerator / root**2, kinetic))
+        # Unit panel norm, dominant panel coordinate real and positive.
+        dominant = vector[np.argmax(np.abs(vector[:size]))]
+        vector = vector * (abs(dominant) / dominant) / np.linalg.norm(vector[:size])
+        q, u = vector[:size], vector[size:]
+        frequency = root.real / (2 * np.pi)
+        stiffness, mass, _ = _porous_operator(system, block, frequency)
+        numerator = complex(q @ stiffness[:size, :size] @ q + u @ stiffness[size:, size:] @ u)
+        full, air = np.zeros(n, complex), np.zeros(n, complex)
+        full[block], air[block] = q, u
+        # Kinetic mass of the panel and the air moving with it (radiation loss factor).
+        kinetic = float(np.real(np.conj(vector) @ (mass.real @ vector)))
+        followed.append(FollowedMode(math.sqrt(max((root**2).real, 0.0)) / (2 * np.pi),
+                                     full, air, numerator, numerator / root**2, kinetic))
     return followed
