@@ -32,6 +32,19 @@ def _mn(label: str) -> tuple[int, int]:
     return int(m), int(n)
 
 
+def test_the_membrane_module_gathers_the_rectangle_and_the_disc():
+    # One definition of each name: the module callers import from hands out the objects of
+    # the family modules, never a copy that could drift from them.
+    from auditor.physics import circular_membrane, rectangular_membrane
+
+    for name in membrane.__all__:
+        family = rectangular_membrane if name in rectangular_membrane.__all__ else circular_membrane
+        assert name in family.__all__
+        assert getattr(membrane, name) is getattr(family, name)
+    families = set(rectangular_membrane.__all__) | set(circular_membrane.__all__)
+    assert set(membrane.__all__) == families
+
+
 # --------------------------------------------------------------------------------------------
 # Bessel zeros
 # --------------------------------------------------------------------------------------------

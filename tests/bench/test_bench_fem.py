@@ -29,7 +29,8 @@ def cold_solve(outline, cutouts, accuracy="default", n_modes=None):
     best, basis = math.inf, None
     for _ in range(3):
         start = time.perf_counter()
-        basis = fem.polygon_membrane_basis(outline, cutouts, 1.0, 1.0, 1.0, n_modes=n_modes, accuracy=accuracy)
+        basis = fem.polygon_membrane_basis(outline, cutouts, 1.0, 1.0, 1.0, n_modes=n_modes,
+                                           accuracy=accuracy)
         best = min(best, time.perf_counter() - start)
     return basis, best
 
@@ -56,7 +57,8 @@ def test_bench_l_shape():
 def test_bench_equilateral_triangle():
     basis, seconds = cold_solve(TRIANGLE, ())
     # Lamé: λ = (16π²/9)(m² + mn + n²) for side 1 (Pinsky, SIAM J. Math. Anal. 11, 1980)
-    error = report("equilateral triangle", basis, seconds, 16 * math.pi**2 / 9 * np.array([3, 7, 7, 12, 13, 13]))
+    reference = 16 * math.pi**2 / 9 * np.array([3, 7, 7, 12, 13, 13])
+    error = report("equilateral triangle", basis, seconds, reference)
     assert np.all(np.abs(error) < 5e-4)
 
 
@@ -64,7 +66,8 @@ def test_bench_trapezoid_with_two_cutouts():
     # no published value: the reference is the "fine" solve of the same shape
     fine, fine_seconds = cold_solve(TRAPEZOID, TRAPEZOID_CUTOUTS, accuracy="fine")
     reference = (2 * np.pi * fine.frequencies_hz[:6]) ** 2
-    print(f"\ntrapezoid reference ('fine'): {fine_seconds:.3f} s, {len(fine.region.triangles)} triangles")
+    print(f"\ntrapezoid reference ('fine'): {fine_seconds:.3f} s, "
+          f"{len(fine.region.triangles)} triangles")
     basis, seconds = cold_solve(TRAPEZOID, TRAPEZOID_CUTOUTS)
     error = report("trapezoid with two cut-outs (against 'fine')", basis, seconds, reference)
     assert np.all(np.abs(error) < 5e-4)
@@ -83,3 +86,39 @@ def test_bench_many_modes_of_the_l_shape():
         assert (2 * np.pi * basis.frequencies_hz[0]) ** 2 == pytest.approx(9.6397238440, rel=1e-3)
     print("\nL-shape, coarse mesh:\n  " + "\n  ".join(lines))
     assert seconds < 20.0
+
+
+def test_bench_mesh_quality_sweep():
+    # The mesher alone over a range of sizes on the three shapes: smallest angle, triangles
+    # and time. The smallest angle bounds the elements' interpolation error (the minimum-angle
+    # condition: M. Zlámal, Numer. Math. 12, 1968; from memory).
+    from auditor.physics.geometry import circle_to_polygon, clockwise, signed_area
+
+    lines, worst = [], math.inf
+    for name, outline, cutouts in (("L-shape", L_SHAPE, ()), ("triangle", TRIANGLE, ()),
+                                   ("trapezoid", TRAPEZOID, TRAPEZOID_CUTOUTS)):
+        for accuracy in ("coarse", "default", "fine"):
+            for relative_edge in (0.2, 0.14, 0.1, 0.07, 0.05, 0.035, 0.025):
+                edge = relative_edge * math.sqrt(abs(signed_area(outline)))
+                holes = [circle_to_polygon(c, max_edge=0.5 * edge) if isinstance(c, CircleCutout)
+                         else clockwise(c.vertices) for c in cutouts]
+                polygonal = [isinstance(c, PolygonCutout) for c in cutouts]
+                start = time.perf_counter()
+                nodes, triangles = fem.mesh_polygon(np.array(outline), holes, edge,
+                                                    polygonal_holes=polygonal,
+                                                    settings=fem.ACCURACY[accuracy])
+                seconds = time.perf_counter() - start
+                corners = nodes[triangles]
+                angles = []
+                for i in range(3):
+                    u = corners[:, (i + 1) % 3] - corners[:, i]
+                    v = corners[:, (i + 2) % 3] - corners[:, i]
+                    cosine = np.sum(u * v, axis=1) / (np.hypot(*u.T) * np.hypot(*v.T))
+                    angles.append(np.degrees(np.arccos(np.clip(cosine, -1.0, 1.0))))
+                smallest = float(np.min(angles))
+                worst = min(worst, smallest)
+                lines.append(f"{name:9s} {accuracy:7s} edge {relative_edge:5.3f}·√A: "
+                             f"{len(triangles):6d} triangles, smallest angle {smallest:5.1f}°, "
+                             f"{1e3 * seconds:7.1f} ms")
+    print("\nmesh_polygon sweep:\n  " + "\n  ".join(lines) + f"\nworst angle {worst:.1f}°")
+    assert worst > 15.0  # as tests/test_fem.py's MIN_ANGLE_DEG (measured 16.1°)
