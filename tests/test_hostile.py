@@ -1,10 +1,12 @@
 """Hostile schedules: every bad input ends in a clear message, quickly and in bounded memory.
 
 Each case is made here, in the test, into a folder of its own (no binary fixtures): zip bombs
-posing as workbooks, XML entity expansion, a text file named .xlsx, empty and header-only
-tables, a million empty CSV rows, legacy and UTF-16 encodings, control characters, NaN,
-infinite, blank and formula cells, sizes no building has, shapes no mesh takes, markup and
-formula-injection text in names, and tap-test paths leading out of the schedule's folder.
+posing as workbooks, XML entity expansion (also spelt in UTF-7 and UTF-16), a text file named
+.xlsx, empty and header-only tables, a million empty CSV rows, legacy and UTF-16 encodings,
+control characters, NaN, infinite, blank and formula cells, sizes no building has, shapes no
+mesh takes, markup and formula-injection text in names, tap-test paths leading out of the
+schedule's folder, and sheets whose XML is cut short, never closes its cells, nests a hundred
+deep, puts a few cells far apart or beyond the last column, or merges ranges over each other.
 
 Every case is driven through the command line (``check --json`` and ``audit --json``): it
 must end with exit status 2 when nothing could be read, else 0 with the problem listed
@@ -372,6 +374,71 @@ def _huge_merge(folder: Path) -> list[Path]:
     return [_write_parts(folder / "merged.xlsx", _package({"Panels": sheet}))]
 
 
+def _with_rows(extra: str, tail: str = "") -> str:
+    """The sheet of a header and one good panel, with ``extra`` XML after its rows."""
+    return _sheet_xml([HEADER, GOOD], tail).replace("</sheetData>", extra + "</sheetData>")
+
+
+def _unclosed_cells(folder: Path) -> list[Path]:
+    # 20 000 cells never closed: not XML, and a pattern matcher looking for each cell's end
+    # scans the rest of the sheet from every one of them (measured: 24 s for 10 000)
+    sheet = _with_rows('<row r="3">' + '<c r="A3"><v>1</v>' * 20_000 + "</row>")
+    return [_write_parts(folder / "unclosed.xlsx", _package({"Panels": sheet}))]
+
+
+def _cut_short(folder: Path) -> list[Path]:
+    sheet = _with_rows("")[:-40]  # the last closing tags missing
+    return [_write_parts(folder / "short.xlsx", _package({"Panels": sheet}))]
+
+
+def _far_apart_cells(folder: Path) -> list[Path]:
+    # a few hundred cells in column XFD (ECMA-376 Part 1 §18.3.1.4: the last column) make a
+    # sheet of millions of cells for a reader that holds every row from column A
+    far = "".join(f'<row r="{r}"><c r="XFD{r}"><v>1</v></c></row>' for r in range(3, 403))
+    return [_write_parts(folder / "far.xlsx", _package({"Panels": _with_rows(far)}))]
+
+
+def _beyond_last_column(folder: Path) -> list[Path]:
+    sheet = _with_rows('<row r="3"><c r="XFE3"><v>1</v></c></row>')
+    return [_write_parts(folder / "beyond.xlsx", _package({"Panels": sheet}))]
+
+
+def _overlapping_merges(folder: Path) -> list[Path]:
+    rows = [HEADER, GOOD] + [[f"G{k}", None, 0.6, 0.6, 0.25, 1500] for k in range(2, 50)]
+    merges = '<mergeCell ref="B2:B50"/>' * 45_000  # each fills 48 cells: 2.16 million
+    sheet = _sheet_xml(rows, f'<mergeCells count="45000">{merges}</mergeCells>')
+    return [_write_parts(folder / "merges.xlsx", _package({"Panels": sheet}))]
+
+
+def _deep_nesting(folder: Path) -> list[Path]:
+    sheet = _with_rows("<x>" * 100 + "</x>" * 100)
+    return [_write_parts(folder / "deep.xlsx", _package({"Panels": sheet}))]
+
+
+def _entities_in_utf7(folder: Path) -> list[Path]:
+    # the markup of the entity-expansion case, in an encoding whose bytes do not show it
+    (laughs,) = _entity_expansion(folder)
+    with zipfile.ZipFile(laughs) as archive:
+        parts = {n: archive.read(n) for n in archive.namelist()}
+    laughs.unlink()
+    text = parts["xl/worksheets/sheet1.xml"].decode("utf-8")
+    text = text.replace('encoding="UTF-8"', 'encoding="UTF-7"', 1)
+    head, body = text.split("?>", 1)
+    parts["xl/worksheets/sheet1.xml"] = (head + "?>").encode("ascii") + body.encode("utf-7")
+    return [_write_parts(folder / "seven.xlsx", parts)]
+
+
+def _entities_in_utf16(folder: Path) -> list[Path]:
+    (laughs,) = _entity_expansion(folder)
+    with zipfile.ZipFile(laughs) as archive:
+        parts = {n: archive.read(n) for n in archive.namelist()}
+    laughs.unlink()
+    text = parts["xl/worksheets/sheet1.xml"].decode("utf-8")
+    parts["xl/worksheets/sheet1.xml"] = text.replace(
+        'encoding="UTF-8"', 'encoding="UTF-16"', 1).encode("utf-16")  # with its mark
+    return [_write_parts(folder / "sixteen.xlsx", parts)]
+
+
 @dataclass(frozen=True)
 class Case:
     """One hostile input: how to make it, the exit status both commands must give, and the
@@ -431,6 +498,23 @@ CASES = (
          r"the cell holds 200,000 characters, more than a spreadsheet cell can \(32,767\)",
          "Panels", 3, "Panel"),
     Case("a merge down a million rows", _huge_merge, 0, r"", "", None),
+    Case("cells never closed", _unclosed_cells, 2,
+         r"sheet 'Panels' nests XML elements more than 64 deep"),
+    Case("a sheet cut short", _cut_short, 2,
+         r"sheet 'Panels' is damaged: its XML is not well-formed \(no element found"),
+    Case("a few cells far apart", _far_apart_cells, 2,
+         r"sheet 'Panels', row \d+ \(reaching column XFD\): the sheet holds more than "
+         r"5,000,000 cells"),
+    Case("a cell beyond the last column", _beyond_last_column, 2,
+         r"sheet 'Panels', row 3: a cell lies beyond column XFD"),
+    Case("overlapping merged ranges", _overlapping_merges, 2,
+         r"sheet 'Panels': merged ranges fill more than 2,000,000 cells"),
+    Case("elements nested a hundred deep", _deep_nesting, 2,
+         r"sheet 'Panels' nests XML elements more than 64 deep"),
+    Case("XML entity expansion in UTF-7", _entities_in_utf7, 2,
+         r"declares the encoding 'UTF-7'; a workbook's XML is UTF-8 or UTF-16"),
+    Case("XML entity expansion in UTF-16", _entities_in_utf16, 2,
+         r"declares an XML document type"),
 )
 
 
@@ -601,6 +685,39 @@ def test_reading_is_bounded_in_time_and_memory(corpus):
         assert seconds < MAX_SECONDS, (name, seconds)
         assert peak_mb < MAX_PEAK_MB, (name, peak_mb)
     print("\n" + "\n".join(f"{n:45s} {s:6.2f} s {p:6.0f} MB" for n, s, p, _ in measured))
+
+
+def test_elements_no_reader_knows_are_not_kept(tmp_path):
+    """A sheet and its shared strings padded with elements no reader knows, and with empty
+    rows of a set height: the memory reading takes does not grow with how many there are
+    (openpyxl's own loop keeps each, about 100 bytes apiece: 1 GB for a 44 kB workbook of
+    11 million, measured)."""
+    import tracemalloc
+
+    from auditor.schedule import sources
+
+    def peak_bytes(count: int) -> int:
+        rows = "".join(f'<row r="{r}" ht="9" customHeight="1"/>' for r in range(9, 9 + count // 4))
+        parts = _package({"Panels": _with_rows("<x/>" * count + rows)})
+        parts["xl/sharedStrings.xml"] = (f'<sst xmlns="{_MAIN}"><si><t>North</t></si>'
+                                         + "<x/>" * count + "</sst>").encode()
+        parts["[Content_Types].xml"] = parts["[Content_Types].xml"].replace(
+            b"</Types>", b'<Override PartName="/xl/sharedStrings.xml" ContentType="application/'
+            b'vnd.openxmlformats-officedocument.spreadsheetml.sharedStrings+xml"/></Types>')
+        data = _write_parts(tmp_path / f"padded{count}.xlsx", parts).read_bytes()
+        tracemalloc.start()
+        try:
+            (sheet,) = sources._load_workbook(data, "padded.xlsx")
+            peak = tracemalloc.get_traced_memory()[1]
+        finally:
+            tracemalloc.stop()
+        assert [r for r, _ in sheet.rows] == [1, 2]
+        return peak
+
+    small, large = peak_bytes(10_000), peak_bytes(100_000)
+    # 90 000 more elements (and 22 500 more rows) kept would take some 10 MB more; the
+    # larger file's own stored copy takes under 1 MB more
+    assert large - small < 3_000_000, (small, large)
 
 
 # ---------------------------------------------------------------------------------------

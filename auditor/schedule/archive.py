@@ -7,8 +7,9 @@ spreadsheet program never writes. :func:`verified_workbook_archive` therefore ch
 archive's directory first (a zip, holding a workbook, few enough members, plausible sizes)
 and then inflates each XML part itself, a chunk at a time, against one running byte budget
 for the whole workbook, so nothing is ever inflated past :data:`MAX_EXPANDED_BYTES`
-whatever the archive declares. The parts come out as a new in-memory archive of stored
-(uncompressed) members whose sizes are now known to be true; both sheet readers work on
+whatever the archive declares. A part's XML must be UTF-8 or UTF-16, so that a document
+type is found whatever bytes spell it. The parts come out as a new in-memory archive of
+stored (uncompressed) members whose sizes are now known to be true; the reader works on
 that copy. Parts the reader never reads (images, printer settings, embedded objects) are
 never inflated: the copy holds them as empty members so that every reference still
 resolves.
@@ -21,12 +22,16 @@ References
 .. [2] RFC 1951, *DEFLATE Compressed Data Format Specification* (1996), §3.2.4: a stored
    block costs 5 bytes of header per at most 65 535 bytes, so an honest deflate stream is
    never much longer than the data it holds.
-.. [3] ECMA-376 Office Open XML File Formats, 5th edition (2016), Part 2 (packaging).
+.. [3] ECMA-376 Office Open XML File Formats, 5th edition (2016), Part 2 (packaging),
+   §8.1.4 (XML content is UTF-8 or UTF-16; from memory).
+.. [4] W3C, *Extensible Markup Language (XML) 1.0*, 5th edition (2008), §4.3.3 and
+   Appendix F (an entity's encoding, from its byte-order mark and declaration).
 """
 
 from __future__ import annotations
 
 import io
+import re
 import zipfile
 import zlib
 
@@ -44,9 +49,16 @@ MAX_EXPANDED_BYTES = 50_000_000
 #: A workbook has a few dozen parts; far more means a damaged or hostile archive.
 MAX_ARCHIVE_MEMBERS = 10_000
 _CHUNK = 1 << 20  # [bytes] inflated per read: the most memory one read can take
-_NEEDED_SUFFIXES = (".xml", ".rels")  # the parts either sheet reader opens
-_DOCTYPE_MARKERS = (b"<!DOCTYPE", b"<!ENTITY")
-_MARKER_OVERLAP = 16  # [bytes] kept between chunks so a marker split by a chunk is found
+_NEEDED_SUFFIXES = (".xml", ".rels")  # the parts the reader opens
+_DOCTYPE_MARKERS = ("<!DOCTYPE", "<!ENTITY")
+_MARKER_OVERLAP = 64  # [bytes] kept between chunks so a marker split by a chunk is found
+# The encodings a package's XML may use (ECMA-376 Part 2 §8.1.4, from memory: UTF-8 or
+# UTF-16), found from the byte-order mark or the first characters (W3C XML 1.0, 5th
+# edition, Appendix F); a declaration naming any other is refused, so that the markers
+# above are looked for in the bytes the XML parser will read.
+_UTF16_STARTS = ((b"\xff\xfe", "utf-16-le"), (b"\xfe\xff", "utf-16-be"),
+                 (b"<\x00?\x00", "utf-16-le"), (b"\x00<\x00?", "utf-16-be"))
+_DECLARED_ENCODING = re.compile(r"""^\s*<\?xml[^>]*?\bencoding\s*=\s*["']([^"']*)["']""")
 
 
 class ScheduleFileError(Exception):
@@ -102,22 +114,44 @@ def _check_directory(archive: zipfile.ZipFile, name: str) -> list[zipfile.ZipInf
     return infos
 
 
+def _doctype_markers(head: bytes, part: str, name: str) -> tuple[bytes, ...]:
+    """The document-type markers as this part's encoding writes them; refuse an encoding a
+    package's XML may not use (the XML parser would decode it and the markers go unseen)."""
+    codec = next((c for start, c in _UTF16_STARTS if head.startswith(start)), "utf-8")
+    text = head.decode(codec, errors="replace").lstrip("\ufeff")
+    if text.lstrip().startswith("<?xml"):
+        declaration = text[:text.find("?>") + 2] if "?>" in text else ""
+        declared = _DECLARED_ENCODING.match(declaration)
+        encoding = declared.group(1).strip().lower().replace("_", "-") if declared else ""
+        allowed = (("", "utf-8", "utf8") if codec == "utf-8" else
+                   ("", "utf-16", "utf16", "utf-16le", "utf-16be", "utf-16-le", "utf-16-be"))
+        if not declaration or encoding not in allowed:
+            shown = declared.group(1)[:20] if declared else "(unreadable)"
+            raise ScheduleFileError(
+                f"{name}: part {part} declares the encoding {shown!r}; a workbook's XML is "
+                "UTF-8 or UTF-16; refusing")
+    return tuple(marker.encode(codec) for marker in _DOCTYPE_MARKERS)
+
+
 def _copy_part(archive: zipfile.ZipFile, info: zipfile.ZipInfo, target: zipfile.ZipFile,
                spent: int, name: str) -> int:
     """Inflate one part into ``target`` a chunk at a time; return the bytes spent so far."""
     tail = b""
+    markers: tuple[bytes, ...] = ()
     with archive.open(info) as source, target.open(info.filename, "w") as sink:
         while True:
             chunk = source.read(_CHUNK)
             if not chunk:
                 return spent
+            if not markers:
+                markers = _doctype_markers(chunk[:400], info.filename, name)
             spent += len(chunk)
             if spent > MAX_EXPANDED_BYTES:
                 raise ScheduleFileError(
                     f"{name}: archive expands to more than {_megabytes(MAX_EXPANDED_BYTES)} "
                     f"(part {info.filename} inflates beyond its declared size); refusing")
             seam = tail + chunk[:_MARKER_OVERLAP]
-            if any(marker in chunk or marker in seam for marker in _DOCTYPE_MARKERS):
+            if any(marker in chunk or marker in seam for marker in markers):
                 raise ScheduleFileError(
                     f"{name}: part {info.filename} declares an XML document type "
                     "(<!DOCTYPE> or <!ENTITY>); spreadsheet programs never write one and "

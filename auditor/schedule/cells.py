@@ -205,6 +205,7 @@ def quantity_reader(
             try:
                 number, typed_unit = split_number_unit(value, decimal_comma=decimal_comma)
             except ValueError as exc:
+                _common_refusal(value)  # a spreadsheet error says so
                 raise CellError(str(exc)) from None
             if not typed_unit:
                 return number * factor

@@ -2,12 +2,10 @@
 
 A workbook is checked and inflated by ``auditor.schedule.archive`` (a zip holding a workbook,
 its XML inflated a chunk at a time within a byte budget, whatever sizes the archive
-declares). Its saved cell values (for formulas, the value a spreadsheet program saved) are
-then read by the fast reader in ``auditor.schedule.xlsx``; a layout that reader does not know
-falls back to openpyxl in read-only mode with ``data_only=True``. Either way a formula cell
-that holds no saved value is told apart from an empty cell in the same single pass, and cells
-merged down a column (a zone merged over several rows) fill every row of the merge, down to
-the sheet's last row with data.
+declares), then read by ``auditor.schedule.xlsx``: openpyxl's conversion of each cell's
+saved value (for formulas, the value a spreadsheet program saved), a formula with no saved
+value told apart from an empty cell, cells merged down a column filling every row of the
+merge, all in bounded time and memory.
 
 A CSV file's encoding comes from its byte-order mark (UTF-8, UTF-16 or UTF-32, little- or
 big-endian); without one it is UTF-8, else UTF-16 when every other byte is zero, else
@@ -31,7 +29,6 @@ import codecs
 import csv
 import hashlib
 import io
-import zipfile
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -41,8 +38,8 @@ from auditor.schedule.archive import (
     ScheduleFileError,
     verified_workbook_archive,
 )
-from auditor.schedule.cells import UNCACHED_FORMULA, clean_text
-from auditor.schedule.xlsx import TooManyRows, UnsupportedWorkbook, read_workbook_rows
+from auditor.schedule.cells import clean_text
+from auditor.schedule.xlsx import MAX_COLUMNS, TooManyRows, read_workbook
 
 __all__ = [
     "ScheduleFileError",
@@ -63,8 +60,6 @@ MAX_FILE_BYTES = 100_000_000
 MAX_TEXT_BYTES = 20_000_000
 #: Most non-empty rows in one sheet or CSV file: five times the 20 000-panel benchmark.
 MAX_ROWS = 100_000
-#: Most cells in one row: the widest sheet a spreadsheet program makes (column XFD).
-MAX_COLUMNS = 16_384
 
 
 @dataclass
@@ -120,129 +115,14 @@ def _check_size(sheet: RawSheet, name: str) -> RawSheet:
     return sheet
 
 
-def _sheet_parser_class():
-    """openpyxl's sheet parser, taught to mark formulas with no saved value."""
-    from openpyxl.worksheet._reader import FORMULA_TAG, WorkSheetParser
-
-    class _SavedValueParser(WorkSheetParser):
-        def parse_cell(self, element):
-            cell = super().parse_cell(element)
-            if cell["value"] is None and element.find(FORMULA_TAG) is not None:
-                cell["value"] = UNCACHED_FORMULA
-            return cell
-
-    return _SavedValueParser
-
-
-def _rows_of_sheet(workbook, worksheet) -> list[tuple[int, list[Any]]]:
-    from openpyxl.utils.cell import range_boundaries
-
-    rows: dict[int, list[Any]] = {}
-    merged = None
-    try:
-        parser_class = _sheet_parser_class()
-        source = worksheet._get_source()
-        parser = parser_class(source, workbook.shared_strings, data_only=True,
-                              epoch=workbook.epoch, date_formats=workbook._date_formats,
-                              timedelta_formats=workbook._timedelta_formats)
-        try:
-            for index, cells in parser.parse():
-                if not cells:
-                    continue
-                if len(rows) >= MAX_ROWS:
-                    raise TooManyRows(MAX_ROWS, worksheet.title)
-                values: list[Any] = [None] * cells[-1]["column"]
-                for cell in cells:
-                    values[cell["column"] - 1] = cell["value"]
-                rows[index] = values
-        finally:
-            source.close()
-        merged = parser.merged_cells
-    except (AttributeError, ImportError, TypeError):  # private API changed: public path
-        worksheet.reset_dimensions()
-        for index, values in enumerate(worksheet.iter_rows(values_only=True), start=1):
-            if values:
-                rows[index] = list(values)
-    if merged is not None:
-        last = max(rows, default=0)  # a merge never makes rows below the last with data
-        for rng in getattr(merged, "mergeCell", ()):
-            try:
-                min_col, min_row, _max_col, max_row = range_boundaries(rng.ref)
-            except (TypeError, ValueError):
-                continue
-            top = rows.get(min_row)
-            value = top[min_col - 1] if top and len(top) >= min_col else None
-            if value is None:
-                continue
-            for r in range(min_row + 1, min(max_row or min_row, last) + 1):
-                row = rows.setdefault(r, [])
-                if len(row) < min_col:
-                    row.extend([None] * (min_col - len(row)))
-                if row[min_col - 1] is None:
-                    row[min_col - 1] = value
-    return _finish_rows(rows)
-
-
-def _finish_rows(rows: dict[int, list[Any]]) -> list[tuple[int, list[Any]]]:
-    """Rows in order, trailing blank cells trimmed, empty rows dropped."""
-    out = []
-    for index in sorted(rows):
-        values = rows[index]
-        while values and (values[-1] is None
-                          or (isinstance(values[-1], str) and not values[-1].strip())):
-            values.pop()
-        if values:
-            out.append((index, values))
-    return out
-
-
 def _load_workbook(data: bytes, name: str) -> list[RawSheet]:
+    """A workbook's sheets: the verified archive, read by ``xlsx.read_workbook``."""
     buffer = verified_workbook_archive(data, name)
     try:
-        with zipfile.ZipFile(buffer) as archive:
-            sheets = [RawSheet(sheet, _finish_rows(rows))
-                      for sheet, rows in read_workbook_rows(archive, MAX_ROWS)]
+        sheets = read_workbook(buffer, name, MAX_ROWS)
     except TooManyRows as exc:
         raise _too_many_rows(name, f"sheet {exc.sheet!r}") from None
-    except UnsupportedWorkbook:
-        return _load_workbook_with_openpyxl(data, name, buffer)
-    except (zipfile.BadZipFile, OSError, EOFError) as exc:
-        raise ScheduleFileError(f"{name} is not a readable workbook: the zip archive is "
-                                f"damaged ({exc})") from None
-    return [clean_sheet(_check_size(sheet, name)) for sheet in sheets]
-
-
-def _load_workbook_with_openpyxl(data: bytes, name: str,
-                                 buffer: io.BytesIO | None = None) -> list[RawSheet]:
-    """The general path: openpyxl in read-only mode, saved formula values (data_only).
-
-    ``buffer`` is the verified archive when the caller has it already.
-    """
-    import openpyxl
-
-    if buffer is None:
-        buffer = verified_workbook_archive(data, name)
-    buffer.seek(0)
-    try:
-        workbook = openpyxl.load_workbook(buffer, read_only=True, data_only=True,
-                                          keep_links=False)
-    except Exception as exc:  # openpyxl raises many kinds for a damaged workbook
-        raise ScheduleFileError(f"{name} could not be read as a workbook "
-                                f"({type(exc).__name__}: {exc})") from None
-    try:
-        sheets = []
-        for worksheet in workbook.worksheets:
-            try:
-                rows = _rows_of_sheet(workbook, worksheet)
-            except TooManyRows:
-                raise _too_many_rows(name, f"sheet {worksheet.title!r}") from None
-            except Exception as exc:  # a damaged sheet: the file cannot be trusted
-                raise ScheduleFileError(f"{name}: sheet {worksheet.title!r} could not be read "
-                                        f"({type(exc).__name__}: {exc})") from None
-            sheets.append(clean_sheet(_check_size(RawSheet(worksheet.title, rows), name)))
-        return sheets
-    finally:
-        workbook.close()
+    return [clean_sheet(_check_size(RawSheet(sheet, rows), name)) for sheet, rows in sheets]
 
 
 #: Characters of a CSV file its delimiter is guessed from: the header and first rows.

@@ -1,331 +1,435 @@
-"""A fast reader of worksheet cell values, for large schedules.
+"""Reading a workbook's saved cell values through openpyxl, in bounded time and memory.
 
-openpyxl's read-only mode builds a Python object per cell through an XML event parser,
-which costs several seconds for a 20 000-row schedule on a slow machine. This module reads
-the same saved values straight from the sheet part of the archive with compiled regular
-expressions: one match per cell. It reads only what the schedule needs (values, the saved
-result of formulas, merged ranges, date formats) and gives up — raising
-:class:`UnsupportedWorkbook` so the caller falls back to openpyxl — on anything it does not
-recognise (namespace prefixes, cells without references, strict OOXML).
+openpyxl reads the workbook's own parts (content types, workbook, relationships, styles and
+so date formats, the 1900 or 1904 date system) and converts each cell through its worksheet
+parser: types, shared strings, date-formatted numbers as dates, the saved result of a
+formula, spreadsheet errors as their text. Beyond values the schedule needs two things the
+public read-only iteration does not give, and the parser is taught them: a formula with no
+saved value (told apart from an empty cell, so the cell readers can say so) and merged
+ranges (a zone merged down several rows fills each of them).
 
-The small parts (workbook, relationships, styles) are parsed with ``defusedxml``, so no
-entity expansion or external entity is ever processed; the large parts are never handed to
-an XML parser at all.
+The worksheets and the shared strings are walked as XML events by :func:`_elements`, which
+keeps nothing once read: openpyxl's own loop keeps every element it does not know, so a 44 kB
+workbook holding 11 million empty elements took 45 s and 1 GB there; here memory follows
+the schedule's size, and the sheet's cells, merged cells, nesting and the size of the parts
+read whole are bounded (the ``MAX_*`` constants). The archive (``archive.py``) has already
+bounded the bytes and refused document types, so the standard library's compiled XML parser
+is used.
 
 References
 ----------
 ECMA-376 Office Open XML File Formats, 5th edition (2016), Part 1, §18.3 (worksheets),
-§18.4 (shared strings), §18.8.30 (number formats), §18.17.4.1 (date serial numbers).
+§18.4 (shared strings), §18.8.30 (number formats), §18.17.4.1 (date serial numbers),
+§22.9.2.19 (the ``_xHHHH_`` escape).
 """
 
 from __future__ import annotations
 
-import datetime as _dt
-import html
-import posixpath
-import re
+import io
+import warnings
 import zipfile
 from typing import Any
+from xml.etree.ElementTree import ParseError, iterparse
 
-from auditor.schedule.cells import UNCACHED_FORMULA
+from auditor.schedule.archive import ScheduleFileError
+from auditor.schedule.cells import UNCACHED_FORMULA, column_letter
 
-__all__ = ["UnsupportedWorkbook", "TooManyRows", "read_workbook_rows"]
+__all__ = [
+    "TooManyRows",
+    "read_workbook",
+    "MAX_COLUMNS",
+    "MAX_SHEET_CELLS",
+    "MAX_MERGED_CELLS",
+    "MAX_WHOLE_PART_BYTES",
+    "MAX_ELEMENTS_IN_ONE",
+    "MAX_XML_DEPTH",
+]
 
-_MAIN = "http://schemas.openxmlformats.org/spreadsheetml/2006/main"
-_REL = "http://schemas.openxmlformats.org/officeDocument/2006/relationships"
-_PKG_REL = "http://schemas.openxmlformats.org/package/2006/relationships"
-_WORKSHEET_TYPE = _REL + "/worksheet"
-_SHARED_TYPE = _REL + "/sharedStrings"
-_STYLES_TYPE = _REL + "/styles"
-_OFFICE_DOCUMENT = _REL + "/officeDocument"
-
-# Built-in number formats that show dates or times (ECMA-376 Part 1 §18.8.30).
-_BUILTIN_DATE_FORMATS = frozenset({14, 15, 16, 17, 18, 19, 20, 21, 22, 27, 28, 29, 30, 31,
-                                   32, 33, 34, 35, 36, 45, 46, 47, 50, 51, 52, 53, 54, 55, 56,
-                                   57, 58})
-
-
-class UnsupportedWorkbook(Exception):
-    """The fast reader does not recognise this workbook's layout; use openpyxl instead."""
+#: Most cells in one row: the widest sheet a spreadsheet program makes (column XFD).
+MAX_COLUMNS = 16_384
+#: Most cells one sheet holds, counted from column A to the last used in each row: 100 000
+#: rows of 50 columns. Bounds the memory of a sheet whose few cells lie far apart.
+MAX_SHEET_CELLS = 5_000_000
+#: Most cells merged ranges may fill in one sheet (each fills its rows below the first).
+MAX_MERGED_CELLS = 2_000_000
+#: [bytes] Largest part read whole into a tree (content types, workbook, its relationships,
+#: styles); a workbook's largest, its styles, stays well below this even when bloated.
+MAX_WHOLE_PART_BYTES = 10_000_000
+#: Most XML elements inside one row or one shared string: every cell of the widest row with
+#: its value, formula and a few runs of formatted text.
+MAX_ELEMENTS_IN_ONE = 8 * MAX_COLUMNS
+#: Deepest nesting of XML elements in a worksheet or the shared strings (a worksheet's cells
+#: nest about eight deep).
+MAX_XML_DEPTH = 64
 
 
 class TooManyRows(Exception):
     """A sheet has more rows with data than the reader takes (``limit``)."""
 
-    def __init__(self, limit: int, sheet: str = "") -> None:
+    def __init__(self, limit: int, sheet: str) -> None:
         super().__init__(f"sheet {sheet!r} has more than {limit} rows")
         self.limit, self.sheet = limit, sheet
 
 
-def _xml(data: bytes):
-    from defusedxml.ElementTree import fromstring
-
-    return fromstring(data)
+class _UnreadableCell(Exception):
+    """A cell whose saved value cannot be taken even as text (the message says which)."""
 
 
-def _relationships(archive: zipfile.ZipFile, part: str) -> dict[str, tuple[str, str]]:
-    """Id -> (type, absolute part name) of a part's relationships."""
-    folder, name = posixpath.split(part)
-    rels_name = posixpath.join(folder, "_rels", name + ".rels")
-    try:
-        root = _xml(archive.read(rels_name))
-    except KeyError:
-        return {}
-    out = {}
-    for rel in root.iter(f"{{{_PKG_REL}}}Relationship"):
-        target = rel.get("Target", "")
-        if rel.get("TargetMode") == "External":
-            continue
-        if target.startswith("/"):
-            resolved = target.lstrip("/")
-        else:
-            resolved = posixpath.normpath(posixpath.join(folder, target))
-        out[rel.get("Id", "")] = (rel.get("Type", ""), resolved)
-    return out
+def _sheet_parser_class():
+    """openpyxl's worksheet parser, taught what the schedule needs beyond its values.
 
+    A formula cell with no saved value becomes ``UNCACHED_FORMULA`` (a formula whose saved
+    result is the empty string, ``t="str"`` with an empty ``<v>``, stays blank); text cells
+    have their ``_xHHHH_`` escapes undone (ECMA-376 Part 1 §22.9.2.19; shared strings are
+    undone once, as they are read); and a saved value openpyxl cannot convert (``NaN``, a
+    boolean of ``true``) is kept as its text, so the schedule's cell readers reject that one
+    cell by name instead of the whole sheet.
+    """
+    from openpyxl.utils.cell import coordinate_to_tuple
+    from openpyxl.utils.escape import unescape
+    from openpyxl.worksheet._reader import (
+        FORMULA_TAG,
+        INLINE_STRING,
+        VALUE_TAG,
+        WorkSheetParser,
+    )
 
-def _unescape(text: str) -> str:
-    if "&" in text:
-        text = html.unescape(text)
-    if "_x" in text:
-        text = re.sub(r"_x([0-9A-Fa-f]{4})_", lambda m: chr(int(m.group(1), 16)), text)
-    return text
-
-
-_SI = re.compile(r"<si>(.*?)</si>|<si/>", re.S)
-_T = re.compile(r"<t(?:\s[^>]*)?>(.*?)</t>", re.S)
-_PHONETIC = re.compile(r"<rPh\b.*?</rPh>", re.S)
-
-
-def _shared_strings(text: str) -> list[str]:
-    if re.search(r"<\w+:sst\b", text[:500]):
-        raise UnsupportedWorkbook("namespace prefix in shared strings")
-    out = []
-    for m in _SI.finditer(text):
-        body = m.group(1) or ""
-        if "<rPh" in body:
-            body = _PHONETIC.sub("", body)
-        out.append(_unescape("".join(_T.findall(body))))
-    return out
-
-
-def _date_styles(archive: zipfile.ZipFile, part: str | None) -> frozenset[int]:
-    """Indices of cell formats (the ``s`` attribute) that show a date or time."""
-    if part is None:
-        return frozenset()
-    from openpyxl.styles.numbers import is_date_format
-
-    root = _xml(archive.read(part))
-    custom = {}
-    formats = root.find(f"{{{_MAIN}}}numFmts")
-    if formats is not None:
-        for fmt in formats:
+    class _SavedValueParser(WorkSheetParser):
+        def parse_cell(self, element):
+            if element.get("t") == "inlineStr":  # read as a shared string is: same type
+                text = element.find(INLINE_STRING)
+                return self._at(element, None if text is None else _string_item_text(text))
             try:
-                custom[int(fmt.get("numFmtId", "-1"))] = fmt.get("formatCode", "")
-            except ValueError:
-                continue
-    out = set()
-    xfs = root.find(f"{{{_MAIN}}}cellXfs")
-    if xfs is not None:
-        for index, xf in enumerate(xfs):
-            try:
-                number_format = int(xf.get("numFmtId", "0"))
-            except ValueError:
-                continue
-            code = custom.get(number_format)
-            if (code is not None and is_date_format(code)) or (
-                    code is None and number_format in _BUILTIN_DATE_FORMATS):
-                out.add(index)
-    return frozenset(out)
+                cell = super().parse_cell(element)
+            except (ValueError, TypeError, IndexError, OverflowError):
+                return self._as_text(element)
+            value = cell["value"]
+            if value is None:
+                if element.find(FORMULA_TAG) is not None and not (
+                        element.get("t") == "str" and element.find(VALUE_TAG) is not None):
+                    cell["value"] = UNCACHED_FORMULA
+            elif value.__class__ is str and element.get("t") != "s" and "_x" in value:
+                cell["value"] = unescape(value)
+            return cell
 
-
-_CELL = re.compile(
-    r'<c\b(?P<pre>[^>]*?)\sr="(?P<col>[A-Z]{1,3})(?P<row>\d+)"(?P<post>[^>]*?)'
-    r"(?:/>|>(?P<body>.*?)</c>)",
-    re.S,
-)
-_CELL_OPEN = re.compile(r"<c[\s>/]")
-_ATTR_T = re.compile(r'\st="(\w+)"')
-_ATTR_S = re.compile(r'\ss="(\d+)"')
-_V = re.compile(r"<v>(.*?)</v>|<v\s*/>", re.S)
-_MERGE = re.compile(r'<mergeCell\b[^>]*\sref="([A-Z]{1,3})(\d+)(?::([A-Z]{1,3})(\d+))?"')
-
-_COLUMN_INDEX: dict[str, int] = {}
-
-
-def _column_index(letters: str) -> int:
-    index = _COLUMN_INDEX.get(letters)
-    if index is None:
-        index = 0
-        for ch in letters:
-            index = index * 26 + (ord(ch) - 64)
-        _COLUMN_INDEX[letters] = index
-    return index
-
-
-def _from_serial(serial: float, epoch: _dt.datetime) -> Any:
-    from openpyxl.utils.datetime import from_excel
-
-    try:
-        return from_excel(serial, epoch)
-    except (OverflowError, ValueError):
-        return "#VALUE!"
-
-
-def _sheet_rows(text: str, shared: list[str], date_styles: frozenset[int],
-                epoch: _dt.datetime, max_rows: int) -> dict[int, list[Any]]:
-    if re.search(r"<\w+:worksheet\b", text[:1000]):
-        raise UnsupportedWorkbook("namespace prefix in a worksheet")
-    start = text.find("<sheetData")
-    end = text.rfind("</sheetData>")
-    data = text[start:end] if start >= 0 and end > start else ""
-    rows: dict[int, list[Any]] = {}
-    attribute_cache: dict[str, tuple[str, int]] = {}
-    column_index = _column_index
-    matched = 0
-    current_text = ""
-    current: dict[int, Any] = {}
-    for match in _CELL.finditer(data):  # one cell at a time: memory follows the values kept
-        pre, col, row_text, post, body = match.groups()
-        matched += 1
-        if not body:
-            continue
-        attrs = pre + post
-        parsed = attribute_cache.get(attrs)
-        if parsed is None:
-            t = _ATTR_T.search(attrs)
-            s = _ATTR_S.search(attrs)
-            parsed = (t.group(1) if t else "n", int(s.group(1)) if s else 0)
-            attribute_cache[attrs] = parsed
-        kind, style = parsed
-        if row_text != current_text:
-            current = rows.setdefault(int(row_text), {})
-            current_text = row_text
-            if len(rows) > max_rows:
-                raise TooManyRows(max_rows)
-        if kind == "inlineStr":
-            if body.startswith("<is><t>") and body.endswith("</t></is>") and body.count("<") == 4:
-                string = body[7:-9]
+        def _at(self, element, value, counted: bool = False):
+            """The cell as openpyxl gives one, placed by its reference or, without one,
+            after the cell before it (``counted``: openpyxl has already moved on to it)."""
+            reference = element.get("r")
+            if reference:
+                try:
+                    row, column = coordinate_to_tuple(reference)
+                except (ValueError, TypeError):
+                    raise _UnreadableCell(
+                        f"row {self.row_counter}: {reference[:20]!r} is not a cell "
+                        "reference") from None
+                self.col_counter = column
             else:
-                string = "".join(_T.findall(_PHONETIC.sub("", body)))
-            current[column_index(col)] = (_unescape(string) if ("&" in string or "_x" in string)
-                                          else string)
+                if not counted:
+                    self.col_counter += 1
+                row, column = self.row_counter, self.col_counter
+            return {"row": row, "column": column, "value": value, "data_type": "s",
+                    "style_id": 0}
+
+        def _as_text(self, element):
+            text = element.findtext(VALUE_TAG)
+            kind = element.get("t", "n")
+            style = element.get("s")
+            # openpyxl counts the cell once its style is read
+            cell = self._at(element, text, counted=not style or style.isdigit())
+            if kind == "s":
+                raise _UnreadableCell(
+                    f"cell {column_letter(cell['column'] - 1)}{cell['row']} names shared "
+                    f"string {text!r}, which the workbook does not hold")
+            if kind == "n" and text is not None:
+                try:  # the lexical forms of xsd:double openpyxl does not take: NaN, INF
+                    cell["value"] = float(text)
+                except ValueError:
+                    pass
+            return cell
+
+    return _SavedValueParser
+
+
+def _elements(source, wanted: str, where: str):
+    """Each ``wanted`` element of an XML part once complete, and each merged range's reference.
+
+    The part is parsed as events and nothing is kept once read: every element outside a
+    ``wanted`` one is dropped as it closes, so memory follows the largest single ``wanted``
+    element (at most :data:`MAX_ELEMENTS_IN_ONE` elements), not the part's size, whatever a
+    hostile part holds between them. Nesting is limited to :data:`MAX_XML_DEPTH`.
+
+    Yields
+    ------
+    ("element", Element) or ("merge", str)
+    """
+    from openpyxl.worksheet._reader import MERGE_TAG
+
+    merge_cell = MERGE_TAG[:-1]  # "{ns}mergeCells" -> "{ns}mergeCell"
+    open_elements: list = []
+    inside = 0  # depth within the current wanted element (0: outside one)
+    count = 0  # elements in the current wanted element
+    # the standard library's parser (compiled): the archive has refused every part that
+    # declares a document type, in whatever encoding the part uses
+    for event, element in iterparse(source, events=("start", "end")):
+        if event == "start":
+            open_elements.append(element)
+            if len(open_elements) > MAX_XML_DEPTH:
+                raise ScheduleFileError(f"{where} nests XML elements more than "
+                                        f"{MAX_XML_DEPTH} deep; refusing")
+            if inside:
+                inside += 1
+                count += 1
+                if count > MAX_ELEMENTS_IN_ONE:
+                    raise ScheduleFileError(
+                        f"{where} has an element holding more than {MAX_ELEMENTS_IN_ONE:,} "
+                        "others; refusing")
+            elif element.tag == wanted:
+                inside, count = 1, 1
             continue
-        if body.startswith("<v>") and body.endswith("</v>") and body.count("<") == 2:
-            raw: str | None = body[3:-4]
-        else:
-            m = _V.search(body)
-            raw = m.group(1) if m else None
-            if raw is None:
-                if "<f" in body:
-                    current[column_index(col)] = UNCACHED_FORMULA
-                continue
-        if not raw and kind != "str":
-            if "<f" in body:
-                current[column_index(col)] = UNCACHED_FORMULA
+        open_elements.pop()
+        if inside:
+            inside -= 1
+            if inside:
+                continue  # part of the wanted element: kept until it is complete
+            yield "element", element
+        elif element.tag == merge_cell:
+            yield "merge", element.get("ref") or ""
+        if open_elements:
+            del open_elements[-1][:]  # the element just read, the only child left
+
+
+def _string_item_text(item) -> str:
+    """The text of a shared string (``<si>``): its text and its runs' text, not the phonetic
+    runs (ECMA-376 Part 1 §18.4.8)."""
+    from openpyxl.utils.escape import unescape
+    from openpyxl.xml.constants import SHEET_MAIN_NS
+
+    text_tag, run_tag = f"{{{SHEET_MAIN_NS}}}t", f"{{{SHEET_MAIN_NS}}}r"
+    parts = []
+    for child in item:
+        if child.tag == text_tag:
+            parts.append(child.text or "")
+        elif child.tag == run_tag:
+            parts.extend(t.text or "" for t in child if t.tag == text_tag)
+    text = "".join(parts)
+    return unescape(text) if "_x" in text else text
+
+
+def _shared_strings(reader, name: str) -> list[str]:
+    from openpyxl.xml.constants import SHARED_STRINGS, SHEET_MAIN_NS
+
+    found = reader.package.find(SHARED_STRINGS)
+    if found is None:
+        return []
+    part = found.PartName[1:]
+    try:
+        source = reader.archive.open(part)
+    except KeyError:
+        raise ScheduleFileError(f"{name} is not a readable workbook: it names a shared-strings "
+                                f"part ({part}) that it does not hold") from None
+    with source:
+        return [_string_item_text(item) for _, item in
+                _elements(source, f"{{{SHEET_MAIN_NS}}}si", f"{name}: the shared strings")]
+
+
+def _worksheet_rows(parser, source, sheet: str, name: str, max_rows: int
+                    ) -> list[tuple[int, list[Any]]]:
+    """One worksheet's rows of saved values, merged cells filled down their column."""
+    from openpyxl.utils.cell import range_boundaries
+    from openpyxl.worksheet._reader import ROW_TAG
+
+    where = f"{name}: sheet {sheet!r}"
+    rows: dict[int, list[Any]] = {}
+    merges: list[str] = []
+    cells_held = 0
+    for kind, item in _elements(source, ROW_TAG, where):
+        if kind == "merge":
+            merges.append(item)
             continue
-        if kind == "n":
-            number = float(raw)
-            value: Any = _from_serial(number, epoch) if style in date_styles else number
-        elif kind == "s":
-            value = shared[int(raw)]
-        elif kind == "str":
-            value = _unescape(raw or "")
-        elif kind == "b":
-            value = raw.strip() in ("1", "true")
-        elif kind == "e":
-            value = _unescape(raw or "#VALUE!")
-        elif kind == "d":
-            try:
-                value = _dt.datetime.fromisoformat(raw)
-            except (TypeError, ValueError):
-                value = raw
-        else:
-            raise UnsupportedWorkbook(f"cell type {kind!r}")
-        current[column_index(col)] = value
-    if matched != len(_CELL_OPEN.findall(data)):
-        raise UnsupportedWorkbook("cells without a reference")
-    out: dict[int, list[Any]] = {}
-    for index, cells in rows.items():
-        if not cells:
+        try:
+            index, cells = parser.parse_row(item)
+        except _UnreadableCell as exc:
+            raise ScheduleFileError(f"{where}: {exc}; refusing") from None
+        parser.row_dimensions.clear()  # row heights: not needed, never kept
+        valued = [(cell["column"], cell["value"]) for cell in cells if cell["value"] is not None]
+        if not valued:
             continue
-        values: list[Any] = [None] * max(cells)
-        for column, value in cells.items():
+        width = max(column for column, _ in valued)
+        if width > MAX_COLUMNS:
+            raise ScheduleFileError(
+                f"{where}, row {index}: a cell lies beyond column {column_letter(MAX_COLUMNS - 1)}"
+                f", where no spreadsheet program puts one; refusing")
+        values = rows.get(index)
+        if values is None:
+            if len(rows) >= max_rows:
+                raise TooManyRows(max_rows, sheet)
+            values = rows[index] = []
+        if len(values) < width:
+            cells_held += width - len(values)
+            values.extend([None] * (width - len(values)))
+        for column, value in valued:
             values[column - 1] = value
-        out[index] = values
-    tail = text[end:] if end > 0 else ""
-    last = max(out, default=0)  # a merge never makes rows below the last with data
-    for col0, row0, _col1, row1 in _MERGE.findall(tail):
-        top = out.get(int(row0))
-        c = _column_index(col0)
-        value = top[c - 1] if top and len(top) >= c else None
-        if value is None or not row1:
+        if cells_held > MAX_SHEET_CELLS:
+            raise _too_many_cells(where, index, width)
+    last = max(rows, default=0)  # a merge never makes rows below the last with data
+    filled = 0
+    for ref in merges:
+        try:
+            min_col, min_row, _max_col, max_row = range_boundaries(ref)
+        except (TypeError, ValueError):
             continue
-        for r in range(int(row0) + 1, min(int(row1), last) + 1):
-            row = out.setdefault(r, [])
-            if len(row) < c:
-                row.extend([None] * (c - len(row)))
-            if row[c - 1] is None:
-                row[c - 1] = value
+        if min_col > MAX_COLUMNS:
+            continue  # beyond the last column: no cell there holds a value
+        top = rows.get(min_row)
+        value = top[min_col - 1] if top and len(top) >= min_col else None
+        if value is None:
+            continue
+        for r in range(min_row + 1, min(max_row or min_row, last) + 1):
+            filled += 1
+            if filled > MAX_MERGED_CELLS:
+                raise ScheduleFileError(f"{where}: merged ranges fill more than "
+                                        f"{MAX_MERGED_CELLS:,} cells; refusing")
+            row = rows.get(r)
+            if row is None:
+                if len(rows) >= max_rows:
+                    raise TooManyRows(max_rows, sheet)
+                row = rows[r] = []
+            if len(row) < min_col:
+                cells_held += min_col - len(row)
+                row.extend([None] * (min_col - len(row)))
+                if cells_held > MAX_SHEET_CELLS:
+                    raise _too_many_cells(where, r, min_col)
+            if row[min_col - 1] is None:
+                row[min_col - 1] = value
+    return _finish_rows(rows)
+
+
+def _too_many_cells(where: str, row: int, width: int) -> ScheduleFileError:
+    return ScheduleFileError(
+        f"{where}, row {row} (reaching column {column_letter(width - 1)}): the sheet holds more "
+        f"than {MAX_SHEET_CELLS:,} cells from column A to the last one used in each row; "
+        "refusing (split the schedule into several files)")
+
+
+def _finish_rows(rows: dict[int, list[Any]]) -> list[tuple[int, list[Any]]]:
+    """Rows in order, trailing blank cells trimmed, empty rows dropped."""
+    out = []
+    for index in sorted(rows):
+        values = rows[index]
+        while values and (values[-1] is None
+                          or (isinstance(values[-1], str) and not values[-1].strip())):
+            values.pop()
+        if values:
+            out.append((index, values))
     return out
 
 
-def read_workbook_rows(archive: zipfile.ZipFile, max_rows: int
-                       ) -> list[tuple[str, dict[int, list[Any]]]]:
+def _check_whole_part(archive: zipfile.ZipFile, part: str, name: str) -> None:
+    """Refuse a part openpyxl reads whole into a tree when it is larger than any workbook's."""
+    try:
+        size = archive.getinfo(part).file_size
+    except KeyError:
+        return  # openpyxl says what is missing
+    if size > MAX_WHOLE_PART_BYTES:
+        raise ScheduleFileError(
+            f"{name}: part {part} is {size / 1e6:.0f} MB; refusing (no workbook's "
+            f"{part.rsplit('/', 1)[-1]} is larger than {MAX_WHOLE_PART_BYTES / 1e6:.0f} MB)")
+
+
+def _workbook_reader(buffer: io.BytesIO, name: str):
+    """openpyxl's reader of the workbook's own parts: content types, workbook, relationships,
+    styles (date formats) and the 1900 or 1904 date system; the worksheets are not opened."""
+    from openpyxl.packaging.relationship import get_rels_path
+    from openpyxl.reader.excel import ExcelReader, _find_workbook_part
+    from openpyxl.styles.stylesheet import apply_stylesheet
+    from openpyxl.xml.constants import ARC_CONTENT_TYPES, ARC_STYLE
+
+    reader = ExcelReader(buffer, read_only=True, data_only=True, keep_links=False)
+    _check_whole_part(reader.archive, ARC_CONTENT_TYPES, name)
+    reader.read_manifest()
+    workbook_part = _find_workbook_part(reader.package).PartName[1:]
+    for part in (workbook_part, get_rels_path(workbook_part), ARC_STYLE):
+        _check_whole_part(reader.archive, part, name)
+    reader.read_workbook()
+    try:
+        apply_stylesheet(reader.archive, reader.wb)
+    except Exception as exc:  # openpyxl raises many kinds for a stylesheet it cannot take
+        raise ScheduleFileError(
+            f"{name}: its styles ({ARC_STYLE}) could not be read ({type(exc).__name__}: "
+            f"{exc}); open it in a spreadsheet program and save it again") from None
+    return reader
+
+
+def read_workbook(buffer: io.BytesIO, name: str, max_rows: int
+                  ) -> list[tuple[str, list[tuple[int, list[Any]]]]]:
     """Every worksheet's saved cell values, by sheet, in workbook order.
+
+    openpyxl reads the workbook's parts and converts each cell (types, shared strings, date
+    formats, saved formula results, spreadsheet errors); the worksheets and shared strings
+    are walked as XML events that keep nothing once read (:func:`_elements`).
 
     Parameters
     ----------
-    archive : zipfile.ZipFile
-        An archive already verified by ``archive.verified_workbook_archive``.
+    buffer : io.BytesIO
+        The archive as ``archive.verified_workbook_archive`` returns it.
+    name : str
+        The file as messages name it.
     max_rows : int
         Most rows with data a sheet may have.
 
     Returns
     -------
-    list of (sheet name, {row number: values})
-        Values are ``float``, ``str``, ``bool``, ``datetime`` (date-formatted numbers),
+    list of (sheet name, [(row number, values)])
+        Rows in order, empty ones left out, trailing blank cells trimmed. Values are
+        ``int``, ``float``, ``str``, ``bool``, ``datetime`` (date-formatted numbers),
         spreadsheet error text ("#DIV/0!") or ``UNCACHED_FORMULA``; a cell merged down a
-        column fills every row of the merge.
+        column fills every row of the merge, down to the sheet's last row with data.
 
     Raises
     ------
-    UnsupportedWorkbook
-        The layout is not one this reader knows; read the workbook with openpyxl.
+    ScheduleFileError
+        A damaged or hostile workbook, naming the sheet and, where one is to blame, the row
+        and column; a sheet beyond :data:`MAX_SHEET_CELLS` or :data:`MAX_MERGED_CELLS`.
     TooManyRows
-        A sheet has more than ``max_rows`` rows with data (found while reading it, so the
-        rest of it is never parsed).
+        A sheet has more than ``max_rows`` rows with data (the rest is never read).
     """
-    try:
-        package = _relationships(archive, "")
-        workbook_part = next((p for t, p in package.values() if t == _OFFICE_DOCUMENT),
-                             "xl/workbook.xml")
-        root = _xml(archive.read(workbook_part))
-        if root.tag != f"{{{_MAIN}}}workbook":
-            raise UnsupportedWorkbook(f"workbook root {root.tag!r}")
-        properties = root.find(f"{{{_MAIN}}}workbookPr")
-        use_1904 = properties is not None and properties.get("date1904", "0") in ("1", "true")
-        epoch = _dt.datetime(1904, 1, 1) if use_1904 else _dt.datetime(1899, 12, 30)
-        rels = _relationships(archive, workbook_part)
-        shared_part = next((p for t, p in rels.values() if t == _SHARED_TYPE), None)
-        styles_part = next((p for t, p in rels.values() if t == _STYLES_TYPE), None)
-        shared = (_shared_strings(archive.read(shared_part).decode("utf-8"))
-                  if shared_part else [])
-        date_styles = _date_styles(archive, styles_part)
-        sheets = root.find(f"{{{_MAIN}}}sheets")
-        out = []
-        for sheet in (sheets if sheets is not None else ()):
-            rel_type, part = rels.get(sheet.get(f"{{{_REL}}}id", ""), ("", ""))
-            if rel_type != _WORKSHEET_TYPE:
-                continue  # chart sheets and dialog sheets hold no table
-            text = archive.read(part).decode("utf-8")
-            name = sheet.get("name", "")
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")  # openpyxl's notes on what it drops: never shown
+        try:
+            reader = _workbook_reader(buffer, name)
+            worksheets = [(sheet, rel) for sheet, rel in reader.parser.find_sheets()
+                          if (rel.Type or "").endswith("/worksheet")
+                          and rel.target in reader.valid_files]  # not chart or dialog sheets
+        except ScheduleFileError:
+            raise
+        except Exception as exc:  # openpyxl raises many kinds for a damaged workbook
+            raise ScheduleFileError(f"{name} could not be read as a workbook "
+                                    f"({type(exc).__name__}: {exc})") from None
+        try:
+            shared = _shared_strings(reader, name)
+        except ScheduleFileError:
+            raise
+        except Exception as exc:  # ParseError and what openpyxl raises for damaged text
+            raise ScheduleFileError(f"{name}: its shared strings could not be read "
+                                    f"({type(exc).__name__}: {exc})") from None
+        parser_class = _sheet_parser_class()
+        sheets = []
+        for sheet, rel in worksheets:
             try:
-                out.append((name, _sheet_rows(text, shared, date_styles, epoch, max_rows)))
-            except TooManyRows as exc:
-                raise TooManyRows(exc.limit, name) from None
-        return out
-    except (UnsupportedWorkbook, TooManyRows):
-        raise
-    except Exception as exc:  # anything unexpected: let openpyxl try
-        raise UnsupportedWorkbook(f"{type(exc).__name__}: {exc}") from None
+                with reader.archive.open(rel.target) as source:
+                    parser = parser_class(
+                        source, shared, data_only=True, epoch=reader.wb.epoch,
+                        date_formats=reader.wb._date_formats,
+                        timedelta_formats=reader.wb._timedelta_formats)
+                    rows = _worksheet_rows(parser, source, sheet.name, name, max_rows)
+            except (ScheduleFileError, TooManyRows):
+                raise
+            except ParseError as exc:
+                raise ScheduleFileError(f"{name}: sheet {sheet.name!r} is damaged: its XML is "
+                                        f"not well-formed ({exc})") from None
+            except Exception as exc:  # a damaged sheet: the file cannot be trusted
+                raise ScheduleFileError(f"{name}: sheet {sheet.name!r} could not be read "
+                                        f"({type(exc).__name__}: {exc})") from None
+            sheets.append((sheet.name, rows))
+    return sheets
