@@ -45,12 +45,6 @@ __all__ = [
     "circular_participation",
 ]
 
-# Sampling step for bracketing Bessel zeros. Consecutive positive zeros of J_m are never closer
-# than j_{0,2} − j_{0,1} ≈ 3.12 (the gaps exceed π for m ≥ 1 and rise towards π for m = 0;
-# Watson, ch. XV), so a step of 2 puts at most one zero in each interval.
-_ZERO_SEARCH_STEP = 2.0
-
-
 def bessel_zeros_below(x_max):
     """Every positive zero ``j_{m,n} ≤ x_max`` of the Bessel functions J_m, m = 0, 1, 2, ...
 
@@ -98,10 +92,11 @@ def _bessel_zeros_below_cached(bound: float):
 def _bessel_zeros_below(x_max):
     """Every positive zero ``j_{m,n} ≤ x_max`` of the Bessel functions J_m, m = 0, 1, 2, ...
 
-    Vectorised over all orders and zeros at once: J_m is sampled on a grid starting at
-    ``x = m`` (no zero lies in (0, m]: j_{m,1} > m), sign changes bracket each zero, and a
-    safeguarded Newton iteration with ``J_m' = (J_{m−1} − J_{m+1})/2`` refines it to machine
-    precision.
+    From ``scipy.special.jn_zeros`` order by order. No order above ``x_max`` has a zero below
+    it (j_{m,1} > m), and J_m (m ≥ 1) has at most ``(x_max − m)/π + 1`` zeros up to ``x_max``
+    (consecutive zeros are more than π apart; for m = 0 they approach π from below, and
+    j_{0,n} > (n − ¼)π); each order is asked for two more than that, and for more again if the
+    last one returned still lies below ``x_max``.
 
     Parameters
     ----------
@@ -116,59 +111,29 @@ def _bessel_zeros_below(x_max):
 
     References
     ----------
-    Abramowitz & Stegun, §9.1.27 (derivative), §9.5 (zeros, j_{m,1} > m); Watson, *A Treatise
-    on the Theory of Bessel Functions*, ch. XV (spacing of zeros).
+    Abramowitz & Stegun, §9.5 (zeros, j_{m,1} > m); Watson, *A Treatise on the Theory of
+    Bessel Functions*, ch. XV (spacing of zeros); SciPy, ``scipy.special.jn_zeros``.
     """
     x_max = float(x_max)
     empty_int = np.empty(0, dtype=np.int64)
     if not x_max > 0.0:
         return empty_int, empty_int, np.empty(0)
-    orders = np.arange(int(math.floor(x_max)) + 1)
-    steps = int(math.ceil(x_max / _ZERO_SEARCH_STEP)) + 2
-    x = orders[:, None] + _ZERO_SEARCH_STEP * np.arange(steps)[None, :]
-    needed = x <= x_max + _ZERO_SEARCH_STEP  # the samples that can bracket a zero ≤ x_max
-    values = np.zeros(x.shape)
-    values[needed] = special.jv(np.broadcast_to(orders[:, None], x.shape)[needed], x[needed])
-    positive = values > 0.0
-    change = (positive[:, :-1] != positive[:, 1:]) & needed[:, 1:]
-    change &= x[:, :-1] <= x_max  # the zero may still exceed x_max; filtered below
-    row, col = np.nonzero(change)
-    if row.size == 0:
+    orders, ranks, zeros = [], [], []
+    for m in range(int(math.floor(x_max)) + 1):
+        count = int((x_max - m) / math.pi) + 3
+        found = special.jn_zeros(m, count)
+        while found[-1] <= x_max:      # never seen; kept so that no zero can be missed
+            count *= 2
+            found = special.jn_zeros(m, count)
+        found = found[found <= x_max]
+        if len(found) == 0:
+            continue
+        orders.append(np.full(len(found), m, dtype=np.int64))
+        ranks.append(np.arange(1, len(found) + 1, dtype=np.int64))
+        zeros.append(found)
+    if not zeros:
         return empty_int, empty_int, np.empty(0)
-    order = orders[row].astype(float)
-    low = x[row, col].astype(float)
-    high = x[row, col + 1].astype(float)
-    low_positive = positive[row, col]
-    # start from the chord between the bracketing samples, then Newton (bisect if it leaves)
-    value_low, value_high = values[row, col], values[row, col + 1]
-    root = low + (high - low) * value_low / (value_low - value_high)
-    root = np.where((root > low) & (root < high), root, 0.5 * (low + high))
-    active = np.arange(root.size)
-    tolerance = 4.0 * np.finfo(float).eps
-    for _ in range(60):
-        rt, lo, hi, nu = root[active], low[active], high[active], order[active]
-        value = special.jv(nu, rt)
-        slope = 0.5 * (special.jv(nu - 1.0, rt) - special.jv(nu + 1.0, rt))
-        # keep the bracket: the end whose sign the value shares moves to the iterate
-        same_as_low = (value > 0.0) == low_positive[active]
-        lo = np.where(same_as_low, rt, lo)
-        hi = np.where(same_as_low, hi, rt)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            newton = rt - value / slope
-        inside = (newton >= lo) & (newton <= hi) & np.isfinite(newton)
-        updated = np.where(inside, newton, 0.5 * (lo + hi))
-        updated = np.where(value == 0.0, rt, updated)
-        root[active], low[active], high[active] = updated, lo, hi
-        converged = np.abs(updated - rt) <= tolerance * rt
-        active = active[~converged]
-        if active.size == 0:
-            break
-    keep = root <= x_max
-    order_int = orders[row][keep].astype(np.int64)
-    # rank within each order: position of the sign change among that order's changes
-    first_of_order = np.searchsorted(row, row, side="left")
-    rank = (np.arange(row.size) - first_of_order + 1)[keep].astype(np.int64)
-    return order_int, rank, root[keep]
+    return np.concatenate(orders), np.concatenate(ranks), np.concatenate(zeros)
 
 
 def circular_mode_frequency(zero, tension, areal_density, radius):
