@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import math
 
+import numpy as np
+
 from auditor.model import Mode, Panel
 
 
@@ -42,3 +44,16 @@ def ideal_membrane_modes_to(panel: Panel, fmax: float, loss_factor: float | None
             n += 1
         m += 1
     return sorted(out, key=lambda mode: mode.frequency_hz)
+
+
+def triangle_angles_deg(nodes: np.ndarray, triangles: np.ndarray) -> np.ndarray:
+    """The three interior angles of each triangle (M, 3)  [degrees], from the law of cosines
+    on the edge vectors (elementary geometry)."""
+    corners = np.asarray(nodes, float)[np.asarray(triangles, int)]
+    angles = []
+    for i in range(3):
+        u = corners[:, (i + 1) % 3] - corners[:, i]
+        v = corners[:, (i + 2) % 3] - corners[:, i]
+        cosine = np.sum(u * v, axis=1) / (np.hypot(*u.T) * np.hypot(*v.T))
+        angles.append(np.degrees(np.arccos(np.clip(cosine, -1.0, 1.0))))
+    return np.column_stack(angles)

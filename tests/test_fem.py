@@ -8,6 +8,7 @@ import math
 
 import numpy as np
 import pytest
+from reference_models import triangle_angles_deg
 from scipy.special import jn_zeros
 
 from auditor.model import CircleCutout, PolygonCutout
@@ -285,18 +286,6 @@ MIN_ANGLE_DEG = 15.0
 LEVELS = ("coarse", "default", "fine")
 
 
-def _angles_deg(nodes: np.ndarray, triangles: np.ndarray) -> np.ndarray:
-    """The three interior angles of each triangle (M, 3)  [degrees]."""
-    corners = nodes[triangles]
-    angles = []
-    for i in range(3):
-        u = corners[:, (i + 1) % 3] - corners[:, i]
-        v = corners[:, (i + 2) % 3] - corners[:, i]
-        cosine = np.sum(u * v, axis=1) / (np.hypot(*u.T) * np.hypot(*v.T))
-        angles.append(np.degrees(np.arccos(np.clip(cosine, -1.0, 1.0))))
-    return np.column_stack(angles)
-
-
 def _signed_areas(nodes: np.ndarray, triangles: np.ndarray) -> np.ndarray:
     a, b, c = (nodes[triangles[:, i]] for i in range(3))
     return 0.5 * ((b[:, 0] - a[:, 0]) * (c[:, 1] - a[:, 1])
@@ -330,7 +319,7 @@ def test_mesh_polygon_makes_no_slivers_and_covers_the_region(outline, cutouts, r
              else clockwise(c.vertices) for c in cutouts]
     polygonal = [isinstance(c, PolygonCutout) for c in cutouts]
     nodes, triangles = fem.mesh_polygon(np.array(outline), holes, edge, polygonal_holes=polygonal)
-    assert _angles_deg(nodes, triangles).min() > MIN_ANGLE_DEG
+    assert triangle_angles_deg(nodes, triangles).min() > MIN_ANGLE_DEG
     areas = _signed_areas(nodes, triangles)
     assert np.all(areas > 0)
     assert areas.sum() == pytest.approx(area - sum(abs(signed_area(h)) for h in holes), rel=1e-12)
@@ -343,7 +332,7 @@ def test_mesh_polygon_makes_no_slivers_and_covers_the_region(outline, cutouts, r
 def test_the_solver_meshes_make_no_slivers(ladders):
     for name, bases in ladders.items():
         for level, basis in zip(LEVELS, bases):
-            smallest = _angles_deg(basis.region.nodes, basis.region.triangles).min()
+            smallest = triangle_angles_deg(basis.region.nodes, basis.region.triangles).min()
             assert smallest > MIN_ANGLE_DEG, (name, level, smallest)
 
 

@@ -104,10 +104,8 @@ def _bessel_zeros_below(x_max):
 
     Returns
     -------
-    order, rank : ndarray of int (k,)  [-]
-        m and n of each zero, sorted by m, then n.
-    zero : ndarray of float (k,)  [-]
-        j_{m,n}.
+    order, rank, zero
+        As :func:`bessel_zeros_below`.
 
     References
     ----------

@@ -10,6 +10,7 @@ import time
 
 import numpy as np
 import pytest
+from reference_models import triangle_angles_deg
 
 from auditor.model import CircleCutout, PolygonCutout
 from auditor.physics import fem
@@ -108,14 +109,7 @@ def test_bench_mesh_quality_sweep():
                                                     polygonal_holes=polygonal,
                                                     settings=fem.ACCURACY[accuracy])
                 seconds = time.perf_counter() - start
-                corners = nodes[triangles]
-                angles = []
-                for i in range(3):
-                    u = corners[:, (i + 1) % 3] - corners[:, i]
-                    v = corners[:, (i + 2) % 3] - corners[:, i]
-                    cosine = np.sum(u * v, axis=1) / (np.hypot(*u.T) * np.hypot(*v.T))
-                    angles.append(np.degrees(np.arccos(np.clip(cosine, -1.0, 1.0))))
-                smallest = float(np.min(angles))
+                smallest = float(triangle_angles_deg(nodes, triangles).min())
                 worst = min(worst, smallest)
                 lines.append(f"{name:9s} {accuracy:7s} edge {relative_edge:5.3f}·√A: "
                              f"{len(triangles):6d} triangles, smallest angle {smallest:5.1f}°, "

@@ -189,8 +189,9 @@ def test_1000_panels_over_sealed_cavities_of_30_types(tmp_path):
     assert ratio <= 50.0
 
 
-def test_two_processes_against_one_on_the_5000_panel_schedule(tmp_path):
-    path = _write_workbook(tmp_path / "analytic.xlsx", _analytic_types(), 5000, 100)
+def _two_against_one(path: Path, title: str) -> float:
+    """``audit_schedule`` of the workbook at ``path`` with one and two processes: the
+    speed-up, printed (the results must be equal)."""
     schedule = read_schedule([path])
     rules = load_ruleset("standard")
     times = {}
@@ -201,10 +202,15 @@ def test_two_processes_against_one_on_the_5000_panel_schedule(tmp_path):
                                        created="2024-01-01T00:00:00")
         times[jobs] = time.perf_counter() - start
     speedup = times[1] / times[2]
-    print(f"\n5,000 analytic panels: audit_schedule jobs=1 {times[1]:.2f} s, jobs=2 "
-          f"{times[2]:.2f} s: {speedup:.2f} × on {os.cpu_count()} cores")
+    print(f"\n{title}: audit_schedule jobs=1 {times[1]:.2f} s, jobs=2 {times[2]:.2f} s: "
+          f"{speedup:.2f} × on {os.cpu_count()} cores")
     assert results[1].panels == results[2].panels
-    assert speedup >= 1.6
+    return speedup
+
+
+def test_two_processes_against_one_on_the_5000_panel_schedule(tmp_path):
+    path = _write_workbook(tmp_path / "analytic.xlsx", _analytic_types(), 5000, 100)
+    assert _two_against_one(path, "5,000 analytic panels") >= 1.6
 
 
 def test_two_processes_against_one_on_the_sealed_cavity_schedule(tmp_path):
@@ -212,20 +218,7 @@ def test_two_processes_against_one_on_the_sealed_cavity_schedule(tmp_path):
     # processes costs (``auditor.audit.POOL_WORTH``): there the pool is not used. Panels over
     # sealed cavities are where the work is, and where a second process must pay.
     path = _write_workbook(tmp_path / "sealed.xlsx", _film_types(sealed=True), 1000, 100)
-    schedule = read_schedule([path])
-    rules = load_ruleset("standard")
-    times = {}
-    results = {}
-    for jobs in (1, 2):
-        start = time.perf_counter()
-        results[jobs] = audit_schedule(schedule, rules, with_shapes=False, jobs=jobs,
-                                       created="2024-01-01T00:00:00")
-        times[jobs] = time.perf_counter() - start
-    speedup = times[1] / times[2]
-    print(f"\n1,000 panels over sealed cavities: audit_schedule jobs=1 {times[1]:.2f} s, "
-          f"jobs=2 {times[2]:.2f} s: {speedup:.2f} × on {os.cpu_count()} cores")
-    assert results[1].panels == results[2].panels
-    assert speedup >= 1.6
+    assert _two_against_one(path, "1,000 panels over sealed cavities") >= 1.6
 
 
 def _descendants(pid: int) -> list[int]:
