@@ -11,6 +11,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy import special
 
+from auditor.physics import basis as basis_module
 from auditor.physics import membrane
 from auditor.physics.basis import ModalBasis, PolygonRegion
 from auditor.physics.membrane import (
@@ -617,3 +618,39 @@ def test_a_tone_35_percent_above_the_twelfth_mode_gets_every_mode_below_it():
     # with a cap the list is complete only to its last mode
     assert capped.complete_to_hz == pytest.approx(frequency[11], rel=1e-12)
     assert capped.complete_to_hz < tone
+
+
+def test_analytic_bases_say_what_their_shapes_are():
+    # The loading step integrates a basis in closed form on the strength of its family alone,
+    # so the family must name exactly the shapes the basis evaluates: 2 sin(mπx/Lx) sin(nπy/Ly)
+    # on a rectangle (Rayleigh, The Theory of Sound, vol. I, §194) and
+    # c J_m(j_mn r/a) cos(mθ) on a disc with c = 1/|J₁(j)| (m = 0), √2/|J_{m+1}(j)| (m ≥ 1)
+    # (Rayleigh §200; Lommel's integral, Watson §5.11), the zeros from scipy.special.jn_zeros.
+    rng = np.random.default_rng(7)
+    rect = membrane.rectangular_membrane_basis(700.0, 500.0, 0.25, 1.6, 1.1, 150.0)
+    family = rect.family
+    assert isinstance(family, basis_module.RectangleShapes)
+    assert (family.width, family.length) == (1.6, 1.1)
+    points = rng.uniform([0, 0], [1.6, 1.1], size=(40, 2))
+    expected = 2 * np.sin(np.outer(points[:, 0], family.m * np.pi / 1.6)) * np.sin(
+        np.outer(points[:, 1], family.n * np.pi / 1.1))
+    assert np.allclose(rect.evaluate(points), expected, atol=1e-12)
+    assert [f"({m},{n})" for m, n in zip(family.m, family.n)] == list(rect.labels)
+
+    disc = membrane.circular_membrane_basis(600.0, 0.3, 0.75, 150.0)
+    family = disc.family
+    assert isinstance(family, basis_module.DiscShapes) and family.radius == 0.75
+    radius = 0.75 * np.sqrt(rng.uniform(size=40))
+    theta = rng.uniform(0, 2 * np.pi, size=40)
+    points = np.column_stack([radius * np.cos(theta), radius * np.sin(theta)])
+    zeros = np.array([special.jn_zeros(int(m), int(k) + 1)[k]
+                      for m, k in zip(family.order, family.radial)])
+    scale = np.where(family.order == 0, 1.0, math.sqrt(2.0)) / np.abs(
+        special.jv(family.order + 1, zeros))
+    expected = special.jv(family.order[None, :], np.outer(radius / 0.75, zeros)) * np.cos(
+        np.outer(theta, family.order)) * scale[None, :]
+    assert np.allclose(disc.evaluate(points), expected, atol=1e-10)
+    assert np.allclose(family.zero, zeros, rtol=1e-13)
+    # a cut to the lowest modes keeps its family, cut the same way
+    kept = np.arange(5)
+    assert np.array_equal(family.subset(kept).order, family.order[kept])
