@@ -423,6 +423,10 @@ class Remedy:
         judged clear of conflicts.
     cautions : int
         Cautions left at the proposed tension (or bays).
+    fundamental_hz : float or None  [Hz]
+        The full model's lowest natural frequency at the proposed tension, or of one bay at
+        the scheduled tension: what a commissioning tap test should find after the work.
+        None when no work is proposed.
     """
 
     tension: float | None
@@ -433,6 +437,7 @@ class Remedy:
     clear_windows: tuple[tuple[float, float], ...] = ()
     verified: bool = False
     cautions: int = 0
+    fundamental_hz: float | None = None
 
 
 @dataclass(frozen=True, slots=True)

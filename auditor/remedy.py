@@ -433,8 +433,14 @@ def panel_remedy(panel: Panel, excitations: Sequence[Excitation] | ExcitationArr
     if s < 1 and not any(b > 1 for a, b in search.windows):
         text += " No higher tension in range clears it: check the system maker's minimum tension."
     return Remedy(tension=_snapped(tx * s), bays=None, tension_y=_snapped(ty * s), text=text,
-                  work=True,
-                  clear_windows=windows, verified=True, cautions=grades.cautions)
+                  work=True, clear_windows=windows, verified=True, cautions=grades.cautions,
+                  fundamental_hz=_lowest_hz(state))
+
+
+def _lowest_hz(state: _State) -> float | None:
+    """The lowest natural frequency of a solved state  [Hz] (its modes are ascending)."""
+    frequency = state.modes.frequency
+    return float(frequency[0]) if len(frequency) else None
 
 
 def _bays_or_statement(solver: _Solver, search: _Search | None, panel: Panel, tail: str,
@@ -466,7 +472,8 @@ def _bays_or_statement(solver: _Solver, search: _Search | None, panel: Panel, ta
             if panel.cutouts:
                 text += " The bays were assessed without the panel's cut-outs."
             return Remedy(tension=None, bays=k, text=text + tail, work=True,
-                          clear_windows=windows, verified=True, cautions=grades.cautions)
+                          clear_windows=windows, verified=True, cautions=grades.cautions,
+                          fundamental_hz=_lowest_hz(state))
     if last is None:
         rest = "support changes for this outline need the panel designer."
     else:

@@ -147,7 +147,8 @@ def test_conflict_panel_verdict_remedy_and_response_in_json(audited):
         "tension": panel.remedy.tension, "tension_y": panel.remedy.tension_y,
         "bays": panel.remedy.bays, "clear_windows": [list(w) for w in panel.remedy.clear_windows],
         "text": panel.remedy.text, "work": True, "verified": panel.remedy.verified,
-        "cautions": panel.remedy.cautions}
+        "cautions": panel.remedy.cautions, "fundamental_hz": panel.remedy.fundamental_hz}
+    assert remedy["fundamental_hz"] > 0
     assert remedy["tension"] <= 1600.0                      # within the rating
     assert any(low <= remedy["tension"] <= high for low, high in remedy["clear_windows"])
     assert all(low < high for low, high in remedy["clear_windows"])

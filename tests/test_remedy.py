@@ -232,3 +232,32 @@ def test_not_assessed_tones_are_named_in_the_remedy():
     r = panel_remedy(p, [fan_line(f11(p))], STANDARD, membrane, limit_hz=LIMIT,
                      beyond_hz=150.0)
     assert "Tones above 150 Hz were not assessed; this remedy is judged up to 150 Hz." in r.text
+
+
+def test_the_remedy_carries_the_fundamental_a_commissioning_tap_test_should_find():
+    # At the proposed tension the lowest mode of an ideal membrane is f11 = ½√(T/ρs)·√(1/a² +
+    # 1/b²) (Rayleigh, The Theory of Sound, vol. I, §194); of one bay, the same formula on
+    # the bay; on a model that does not scale as √T, the model's own lowest mode there.
+    p = panel(width=0.8, length=0.6, tension_x=500.0, tension_y=500.0, max_tension=1000.0)
+    exc = fan_line(f11(p) * 1.03)
+    r = panel_remedy(p, [exc], STANDARD, membrane, limit_hz=LIMIT)
+    assert r.tension is not None and r.tension != p.tension_x
+    assert r.fundamental_hz == pytest.approx(f11(retensioned(p, r)), rel=1e-12)
+
+    stiff = panel(width=0.8, length=0.6, max_tension=1000.0)
+    exc = fan_line(stiff_loaded(stiff)[0].frequency_hz * 1.03)
+    r = panel_remedy(stiff, [exc], STANDARD, stiff_loaded, limit_hz=LIMIT)
+    assert r.tension is not None
+    assert r.fundamental_hz == pytest.approx(
+        stiff_loaded(retensioned(stiff, r))[0].frequency_hz, rel=1e-12)
+    assert r.fundamental_hz != pytest.approx(
+        stiff_loaded(stiff)[0].frequency_hz * math.sqrt(r.tension / stiff.tension_x), rel=1e-4)
+
+    rules = dataclasses.replace(STANDARD, min_tension_factor=0.95)
+    long = panel(width=1.2, max_tension=520.0)
+    f_full, f_half = f11(long), f11(dataclasses.replace(long, width=0.6))
+    band = Excitation("AHU-4", "fan", "blade-pass", 1, "fan blade-pass ×1",
+                      math.sqrt(f_full * f_half), (f_full, f_half))
+    r = panel_remedy(long, [band], rules, membrane, limit_hz=LIMIT)
+    assert r.bays == 3
+    assert r.fundamental_hz == pytest.approx(f11(bay_panel(long, 3)), rel=1e-12)

@@ -234,6 +234,23 @@ def test_commissioning_range_is_narrowed_to_the_clear_window(result):
     assert "narrowed" in c.note
 
 
+def test_commissioning_takes_the_fundamental_solved_at_the_proposed_tension(result):
+    # Over a sealed cavity f² = a·T + b, not ∝ T (the cavity's stiffness does not scale with
+    # tension: Fahy & Gardonio, Sound and Structural Vibration, 2nd ed., ch. 7, from memory):
+    # the target is the full model's own fundamental at the proposed tension (or of one bay)
+    # when the remedy carries it, never a √T scaling.
+    pr = next(p for p in digest.action_panels(result) if p.remedy and p.remedy.tension)
+    solved = dataclasses.replace(pr, remedy=dataclasses.replace(pr.remedy, fundamental_hz=7.25))
+    c = digest.commissioning(solved)
+    assert c.expected_hz == 7.25 and c.exact and "proposed tension" in c.note
+    assert c.low_hz >= 7.25 * (1 - digest.COMMISSIONING_TOLERANCE) - 1e-12
+    bays = dataclasses.replace(pr, remedy=dataclasses.replace(
+        pr.remedy, tension=None, tension_y=None, bays=3, fundamental_hz=9.5))
+    c = digest.commissioning(bays)
+    assert c.expected_hz == 9.5 and "one bay" in c.note
+    assert (c.low_hz, c.high_hz) == pytest.approx((9.5 * 0.95, 9.5 * 1.05))
+
+
 def test_root_tension_scaling_is_exact_for_a_membrane_only():
     # Rayleigh's rectangle: doubling T multiplies every f_mn by √2 exactly.
     low = rectangle_modes(2.0, 1.2, 800.0, 0.25, 6)

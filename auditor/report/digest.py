@@ -501,10 +501,13 @@ class Commissioning:
 def commissioning(pr: PanelResult, tolerance: float = COMMISSIONING_TOLERANCE) -> Commissioning:
     """Target tension and expected tap-test fundamental for one panel (air loading included).
 
-    The fundamental at the scheduled tension is the full model's (air, cavity, bending as
-    scheduled); at a proposed tension it is scaled by √(T/T₀), exact where
-    ``scales_as_root_tension`` says so. The accepted range is ±``tolerance``, narrowed to
-    the frequencies of the clear window that holds the target.
+    The expected fundamental is the full model's (air, cavity, bending): at the scheduled
+    tension when nothing changes, and at the proposed tension or of one bay when the remedy
+    carries it (``Remedy.fundamental_hz``, solved when the remedy was verified). A remedy
+    without it (made elsewhere) has the scheduled fundamental scaled by √(T/T₀), exact where
+    ``scales_as_root_tension`` says so. The accepted range is ±``tolerance``, narrowed to the
+    frequencies of the clear window that holds the target (its edges mapped by √T from the
+    target).
     """
     panel, remedy = pr.panel, pr.remedy
     first = fundamental(pr.modes)
@@ -515,21 +518,31 @@ def commissioning(pr: PanelResult, tolerance: float = COMMISSIONING_TOLERANCE) -
         longer = max(panel.width or 0.0, panel.length or 0.0)
         work = f"{remedy.bays} equal bays" + (f" of {longer / remedy.bays:.2f} m" if longer
                                                else "")
-        return Commissioning(panel.panel, work, tx if tx > 0 else None,
-                             ty if ty > 0 else None, None, None, None, True,
-                             "each bay's fundamental is not in the audit result: re-audit the "
-                             "bay as built")
+        bay = remedy.fundamental_hz
+        if bay is None:
+            return Commissioning(panel.panel, work, tx if tx > 0 else None,
+                                 ty if ty > 0 else None, None, None, None, True,
+                                 "each bay's fundamental is not in the audit result: re-audit "
+                                 "the bay as built")
+        return Commissioning(panel.panel, work, tx if tx > 0 else None, ty if ty > 0 else None,
+                             bay, bay * (1 - tolerance), bay * (1 + tolerance), True,
+                             "full-model fundamental of one bay at the scheduled tension")
     if remedy is not None and remedy.work and remedy.tension is not None and tx > 0 and f0:
         target_x = remedy.tension
         target_y = remedy.tension_y if remedy.tension_y is not None else target_x * ty / tx
-        expected = frequency_at_tension(f0, target_x, tx)
+        solved = remedy.fundamental_hz
+        if solved is not None:
+            expected, exact = solved, True
+            note = "full-model fundamental at the proposed tension"
+        else:
+            expected = frequency_at_tension(f0, target_x, tx)
+            note = "\u221aT from the full-model fundamental at the scheduled tension"
         low, high = expected * (1 - tolerance), expected * (1 + tolerance)
         window = next(((a, b) for a, b in remedy.clear_windows
                        if a * (1 - 1e-9) <= target_x <= b * (1 + 1e-9)), None)
-        note = "\u221aT from the full-model fundamental at the scheduled tension"
         if window is not None:
-            low = max(low, frequency_at_tension(f0, window[0], tx))
-            high = min(high, frequency_at_tension(f0, window[1], tx))
+            low = max(low, frequency_at_tension(expected, window[0], target_x))
+            high = min(high, frequency_at_tension(expected, window[1], target_x))
             if high - low < 2 * tolerance * expected * (1 - 1e-6):
                 note += "; range narrowed to the clear window"
         if not exact:

@@ -13,8 +13,9 @@ standard library's ``json`` module; SI units throughout (Hz, N/m, dB). Its shape
      "problems": [...]}
 
 Each panel's ``remedy`` is its one remedy (``{"tension", "tension_y", "bays",
-"clear_windows", "text", "work", "verified", "cautions"}`` or null); findings carry none of
-their own. ``findings`` are worst first, each with its ``response_db`` and path
+"clear_windows", "text", "work", "verified", "cautions", "fundamental_hz"}`` or null;
+``fundamental_hz`` is the full model's at the proposed tension, or of one bay); findings carry
+none of their own. ``findings`` are worst first, each with its ``response_db`` and path
 (``path``, ``mount``, ``transmissibility``, ``amplification``). ``modes`` lists the modes
 ``modes_listed`` names (``auditor.report.records``), ``mode_count`` counts them all.
 
@@ -68,6 +69,7 @@ def remedy_dict(r: Remedy | None) -> dict[str, Any] | None:
         "work": r.work,
         "verified": r.verified,
         "cautions": r.cautions,
+        "fundamental_hz": r.fundamental_hz,
     }
 
 

@@ -298,6 +298,16 @@ def commissioning_line(b: ReportBuilder, pr: PanelResult) -> list[Flowable]:
                 f"fundamental at {format_hz(c.expected_hz)} Hz (accept "
                 f"{format_hz(c.low_hz)}\u2013{format_hz(c.high_hz)} Hz, {tol}); outside it, the "
                 f"installed tension differs from the schedule: audit again with the recording.")
+    elif "bays" in c.work:
+        at = ""
+        if c.target_x:
+            same = c.target_y is None or abs(c.target_x - c.target_y) <= 1e-9 * c.target_x
+            at = (f", at the scheduled {c.target_x:.0f}"
+                  f"{'' if same else f' × {c.target_y:.0f}'} N/m")
+        text = (f"<b>Commissioning.</b> After the work ({b.m(c.work)}{at}), a tap test on "
+                f"each bay should find the fundamental at {format_hz(c.expected_hz)} Hz; "
+                f"accept {format_hz(c.low_hz)}\u2013{format_hz(c.high_hz)} Hz ({tol}; "
+                f"{b.m(c.note)}).")
     else:
         approx = "about " if not c.exact else ""
         text = (f"<b>Commissioning.</b> After the work ({b.m(c.work)} to "

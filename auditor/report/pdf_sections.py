@@ -243,8 +243,10 @@ def _commissioning(b: ReportBuilder) -> list[Flowable]:
         return f"{x:.0f}" if y is None or abs(x - y) <= 1e-9 * max(x, 1.0) \
             else f"{x:.0f} \u00d7 {y:.0f}"
 
+    approximate = False
     for pr in b.action:
         c = digest.commissioning(pr)
+        approximate |= not c.exact
         expected = "-" if c.expected_hz is None else (
             ("\u2248" if not c.exact else "") + format_hz(c.expected_hz))
         accept = "-" if c.low_hz is None else f"{format_hz(c.low_hz)}\u2013{format_hz(c.high_hz)}"
@@ -252,9 +254,10 @@ def _commissioning(b: ReportBuilder) -> list[Flowable]:
                      tension(c.target_x, c.target_y), expected, accept,
                      b.para(b.ms(c.note), "cell")])
     out.append(b.table(rows, widths, long=True, extra=[("ALIGN", (2, 1), (4, -1), "RIGHT")]))
-    out.append(b.para("\u2248: the √T scaling of a construction whose stiffness does not all "
-                      "scale with tension (a sealed cavity, bending, a porous sheet); confirm "
-                      "with an audit at the target tension. " + b.m(SAFETY_NOTE), "caption"))
+    approx = ("\u2248: the √T scaling of a construction whose stiffness does not all scale "
+              "with tension (a sealed cavity, bending, a porous sheet); confirm with an audit "
+              "at the target tension. " if approximate else "")
+    out.append(b.para(approx + b.m(SAFETY_NOTE), "caption"))
     return out
 
 
