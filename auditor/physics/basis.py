@@ -197,6 +197,19 @@ class IndexedNames(Sequence):
     def __reduce__(self):
         return IndexedNames, (self.first, self.second, self.name)
 
+    def subset(self, indices) -> IndexedNames:
+        """The names of the modes ``indices`` only, in that order (still made when read)."""
+        indices = np.asarray(indices, dtype=int)
+        return IndexedNames(self.first[indices], self.second[indices], self.name)
+
+
+def names_at(names: Sequence, indices) -> Sequence:
+    """The entries ``indices`` of a basis's labels or nodal lines: an :class:`IndexedNames`
+    stays one (made when read), any other sequence gives a tuple."""
+    if isinstance(names, IndexedNames):
+        return names.subset(indices)
+    return tuple(names[i] for i in np.asarray(indices, dtype=int).tolist())
+
 
 #: The family of a basis's shapes: analytic (integrated in closed form), or None for shapes
 #: known only numerically (finite elements), which the loading step integrates by points.

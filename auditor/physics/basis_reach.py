@@ -21,7 +21,7 @@ from typing import TYPE_CHECKING, Callable
 
 import numpy as np
 
-from auditor.physics.basis import ModalBasis, complete_below
+from auditor.physics.basis import ModalBasis, complete_below, names_at
 from auditor.physics.cache import SolveCache
 from auditor.physics.loading_inputs import AIR_DENSITY
 
@@ -181,10 +181,10 @@ def truncated_basis(basis: ModalBasis, count: int, cache: SolveCache) -> ModalBa
     return ModalBasis(
         region=basis.region,
         frequencies_hz=np.asarray(basis.frequencies_hz)[keep],
-        labels=tuple(basis.labels[i] for i in keep),
+        labels=names_at(basis.labels, keep),
         multiplicity=np.asarray(basis.multiplicity)[keep],
         mean=np.asarray(basis.mean)[keep],
-        nodal_lines=tuple(basis.nodal_lines[i] for i in keep),
+        nodal_lines=names_at(basis.nodal_lines, keep),
         evaluate=evaluate_kept,
         complete_to_hz=complete,
         evaluate_some=evaluate_some,

@@ -73,7 +73,7 @@ from typing import Callable
 import numpy as np
 
 from auditor.physics.added_mass import baffled_added_mass
-from auditor.physics.basis import ModalBasis, complete_below
+from auditor.physics.basis import ModalBasis, complete_below, names_at
 from auditor.physics.basis_reach import choose_basis_limit, coupled_reach, loading_basis
 from auditor.physics.cache import SolveCache
 from auditor.physics.cavity import cavity_dynamic_mass, mass_air_mass_frequency
@@ -345,7 +345,7 @@ def _assemble(basis: ModalBasis, frequencies, eta_total, eta_rad, vectors, model
         vectors=vectors,
         participation=participation,
         multiplicity=np.asarray(basis.multiplicity, int)[dominant],
-        labels=tuple(basis.labels[i] for i in dominant),
+        labels=tuple(names_at(basis.labels, dominant)),
         basis=basis,
         model=model,
         radiation_loss_factor=np.asarray(eta_rad, float),

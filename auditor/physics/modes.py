@@ -22,7 +22,7 @@ import numpy as np
 
 from auditor.model import CircleCutout, Mode, Panel, ShapeGrid
 from auditor.physics import fem, fluid, membrane, uncoupled
-from auditor.physics.basis import ModalBasis, complete_below
+from auditor.physics.basis import ModalBasis, complete_below, names_at
 from auditor.physics.basis_reach import REACH_MASS_MARGIN
 from auditor.physics.cache import SolveCache
 from auditor.physics.geometry import outline_problems, signed_area
@@ -108,20 +108,20 @@ class PanelModes:
     @cached_property
     def labels(self) -> tuple[str, ...]:
         """Each mode's label (its basis mode's)."""
-        names = self.basis.labels
-        return tuple(names[i] for i in self.index.tolist())
+        return tuple(names_at(self.basis.labels, self.index))
 
     @cached_property
     def modes(self) -> tuple[Mode, ...]:
         """The modes as ``Mode`` records, ascending in frequency (made once, on first use)."""
         basis = self.basis
-        multiplicity = np.asarray(basis.multiplicity)
+        multiplicity = np.asarray(basis.multiplicity)[self.index].tolist()
         return tuple(
-            Mode(label=basis.labels[i], frequency_hz=f, multiplicity=int(multiplicity[i]),
-                 participation=p, nodal_lines=basis.nodal_lines[i], loss_factor=eta,
-                 in_vacuo_hz=f0, index=i)
-            for i, f, p, eta, f0 in zip(
-                self.index.tolist(), self.frequency_hz.tolist(), self.participation.tolist(),
+            Mode(label=label, frequency_hz=f, multiplicity=count, participation=p,
+                 nodal_lines=lines, loss_factor=eta, in_vacuo_hz=f0, index=i)
+            for i, label, lines, count, f, p, eta, f0 in zip(
+                self.index.tolist(), names_at(basis.labels, self.index),
+                names_at(basis.nodal_lines, self.index), multiplicity,
+                self.frequency_hz.tolist(), self.participation.tolist(),
                 self.loss_factor.tolist(), self.in_vacuo_hz.tolist()))
 
     def vector(self, k: int) -> np.ndarray:
