@@ -526,7 +526,8 @@ def commissioning(pr: PanelResult, tolerance: float = COMMISSIONING_TOLERANCE) -
                                  "the bay as built")
         return Commissioning(panel.panel, work, tx if tx > 0 else None, ty if ty > 0 else None,
                              bay, bay * (1 - tolerance), bay * (1 + tolerance), True,
-                             "full-model fundamental of one bay at the scheduled tension")
+                             "full-model fundamental of one bay"
+                             + (" at the scheduled tension" if tx > 0 else ""))
     if remedy is not None and remedy.work and remedy.tension is not None and tx > 0 and f0:
         target_x = remedy.tension
         target_y = remedy.tension_y if remedy.tension_y is not None else target_x * ty / tx
