@@ -164,8 +164,7 @@ def read_csv(path: Path, label: str, shown: str) -> Recording:
             size = os.fstat(handle.fileno()).st_size
             raw = handle.read(min(size, MAX_RECORDING_BYTES) + 1)
     except OSError as error:
-        raise RecordingError(
-            f"{label} cannot be read: {error.strerror or 'input error'}") from None
+        raise RecordingError.unreadable(label, error) from None
     if len(raw) > MAX_RECORDING_BYTES:
         raise RecordingError(f"{label} is over {MAX_RECORDING_BYTES / 1e6:.0f} MB; refused")
     _check_csv_size(raw, label)

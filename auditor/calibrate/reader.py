@@ -81,8 +81,7 @@ def read_recording(path: str | os.PathLike, *, name: str | None = None) -> Recor
         with path.open("rb") as handle:
             head = handle.read(4096)
     except OSError as error:
-        raise RecordingError(f"{label} cannot be read: {error.strerror or 'input error'}") \
-            from None
+        raise RecordingError.unreadable(label, error) from None
     if not head:
         raise RecordingError(f"{label} is empty (0 bytes)")
 

@@ -55,6 +55,11 @@ MAX_RECORDING_BYTES = 200_000_000
 class RecordingError(ValueError):
     """A tap-test recording cannot be used; the message names the file and says why."""
 
+    @classmethod
+    def unreadable(cls, label: str, error: OSError) -> RecordingError:
+        """The file named by ``label`` could not be read: the system's reason, never a path."""
+        return cls(f"{label} cannot be read: {error.strerror or 'input error'}")
+
 
 @dataclass(frozen=True, eq=False)
 class Recording:

@@ -75,8 +75,7 @@ def read_wav(path: Path, label: str, shown: str) -> Recording:
         try:
             rate, data = wavfile.read(path)
         except OSError as error:
-            raise RecordingError(
-                f"{label} cannot be read: {error.strerror or 'input error'}") from None
+            raise RecordingError.unreadable(label, error) from None
         except Exception:  # noqa: BLE001 - any failure of the parser on an untrusted file
             # scipy's own message can quote bytes of the file (its form type): described here
             layout = (f" (format code {tag}, {bits} bits per sample)"
