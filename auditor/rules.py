@@ -185,9 +185,9 @@ def _read_keys(data: Mapping[str, Any], source: str) -> dict[RuleKey, Any]:
         for key, value in item.items():
             spec = rule_key(top, key)
             if spec is None:
-                hint = did_you_mean(key, keys_of(top))
-                if not hint and section_of(key) is not None:
-                    hint = f"; '{key}' belongs {belongs(key)}"
+                # a key of another table, spelt right, is named there before any look-alike
+                hint = (f"; '{key}' belongs {belongs(key)}" if section_of(key) is not None
+                        else did_you_mean(key, keys_of(top)))
                 raise RuleSetError(f"{source}: unknown key '{key}' in [{top}]{hint}")
             given[spec] = checked(spec, value)
     return given

@@ -151,6 +151,9 @@ def test_an_old_file_with_a_mode_count_is_refused_with_the_reason(tmp_path):
      r"unknown key 'conflcit' in \[margins\]; did you mean 'conflict'"),
     ({"margin": {"conflict": 0.1}}, r"unknown section or key 'margin'; did you mean 'margins'"),
     ({"conflict": 0.1}, r"key 'conflict' belongs in section \[margins\]"),
+    # a key of another table, spelt right, is sent there (not to a look-alike in this one)
+    ({"remedy": {"fmax_hz": 1.0}},
+     r"unknown key 'fmax_hz' in \[remedy\]; 'fmax_hz' belongs in section \[modes\]$"),
     ({"margins": {"conflict": "ten"}}, r"\[margins\] conflict must be a number"),
     ({"margins": {"conflict": True}}, r"must be a number"),
     ({"modes": {"max_modes": 12}}, r"\[modes\] max_modes was removed"),
