@@ -163,7 +163,7 @@ class ModeArrays:
             eta = np.asarray(modes.loss_factor, float)
             ascending = bool(np.all(frequency[1:] >= frequency[:-1]))
             order = slice(None) if ascending else np.argsort(frequency, kind="stable")
-            listed = tuple(modes.modes) if records else ()
+            listed = modes.modes if records else ()   # made when read (a ModeList)
             if records and not ascending:
                 listed = tuple(listed[k] for k in order)
             return cls(listed, frequency[order], np.asarray(modes.participation, float)[order],

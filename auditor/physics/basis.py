@@ -179,8 +179,7 @@ class IndexedNames(Sequence):
 
     def __getitem__(self, k):
         if isinstance(k, slice):
-            return tuple(self.name(int(a), int(b))
-                         for a, b in zip(self.first[k].tolist(), self.second[k].tolist()))
+            return IndexedNames(self.first[k], self.second[k], self.name)
         return self.name(int(self.first[k]), int(self.second[k]))
 
     def __iter__(self):

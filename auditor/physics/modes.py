@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import dataclasses
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from functools import cached_property
 from typing import Callable
@@ -47,6 +48,69 @@ FEM_MAX_MODES = 128
 #: Farthest an in-vacuo basis is extended, as a multiple of fmax, for the modes above the
 #: coupled basis (an air mass ratio of 63 at the basis's top: far beyond any panel in air).
 MAX_REACH_FACTOR = 8.0
+
+
+class ModeList(Sequence):
+    """A panel's modes held as arrays, each :class:`~auditor.model.Mode` record made when
+    read: a large panel has tens of thousands of modes, of which a report reads a few.
+
+    Behaves as a sequence of ``Mode`` (ascending in frequency, as its arrays); a slice is
+    another ``ModeList``. Two lists are equal when they hold equal modes.
+    """
+
+    __slots__ = ("labels", "nodal_lines", "frequency_hz", "multiplicity", "participation",
+                 "loss_factor", "in_vacuo_hz", "index")
+
+    def __init__(self, labels, nodal_lines, frequency_hz, multiplicity, participation,
+                 loss_factor, in_vacuo_hz, index):
+        self.labels, self.nodal_lines = labels, nodal_lines
+        self.frequency_hz, self.multiplicity = frequency_hz, multiplicity
+        self.participation, self.loss_factor = participation, loss_factor
+        self.in_vacuo_hz, self.index = in_vacuo_hz, index
+
+    def _fields(self) -> tuple:
+        return (self.labels, self.nodal_lines, self.frequency_hz, self.multiplicity,
+                self.participation, self.loss_factor, self.in_vacuo_hz, self.index)
+
+    def __len__(self) -> int:
+        return len(self.frequency_hz)
+
+    def __getitem__(self, k):
+        if isinstance(k, slice):
+            return ModeList(*(field[k] for field in self._fields()))
+        if k < 0:
+            k += len(self)
+        if not 0 <= k < len(self):
+            raise IndexError("mode index out of range")
+        return Mode(label=self.labels[k], frequency_hz=float(self.frequency_hz[k]),
+                    multiplicity=int(self.multiplicity[k]),
+                    participation=float(self.participation[k]),
+                    nodal_lines=self.nodal_lines[k], loss_factor=float(self.loss_factor[k]),
+                    in_vacuo_hz=float(self.in_vacuo_hz[k]), index=int(self.index[k]))
+
+    def __iter__(self):
+        for i, label, lines, count, f, p, eta, f0 in zip(
+                self.index.tolist(), self.labels, self.nodal_lines,
+                self.multiplicity.tolist(), self.frequency_hz.tolist(),
+                self.participation.tolist(), self.loss_factor.tolist(),
+                self.in_vacuo_hz.tolist()):
+            yield Mode(label=label, frequency_hz=f, multiplicity=count, participation=p,
+                       nodal_lines=lines, loss_factor=eta, in_vacuo_hz=f0, index=i)
+
+    def __eq__(self, other) -> bool:
+        if isinstance(other, ModeList):
+            return len(self) == len(other) and all(
+                np.array_equal(a, b) if isinstance(a, np.ndarray) else tuple(a) == tuple(b)
+                for a, b in zip(self._fields(), other._fields()))
+        return isinstance(other, Sequence) and tuple(self) == tuple(other)
+
+    __hash__ = None  # type: ignore[assignment]
+
+    def __repr__(self) -> str:
+        return f"ModeList({len(self)} modes)"
+
+    def __reduce__(self):
+        return ModeList, self._fields()
 
 
 class GeometryError(ValueError):
@@ -111,18 +175,14 @@ class PanelModes:
         return tuple(names_at(self.basis.labels, self.index))
 
     @cached_property
-    def modes(self) -> tuple[Mode, ...]:
-        """The modes as ``Mode`` records, ascending in frequency (made once, on first use)."""
+    def modes(self) -> ModeList:
+        """The modes as a sequence of ``Mode`` records, ascending in frequency (each record
+        made when read)."""
         basis = self.basis
-        multiplicity = np.asarray(basis.multiplicity)[self.index].tolist()
-        return tuple(
-            Mode(label=label, frequency_hz=f, multiplicity=count, participation=p,
-                 nodal_lines=lines, loss_factor=eta, in_vacuo_hz=f0, index=i)
-            for i, label, lines, count, f, p, eta, f0 in zip(
-                self.index.tolist(), names_at(basis.labels, self.index),
-                names_at(basis.nodal_lines, self.index), multiplicity,
-                self.frequency_hz.tolist(), self.participation.tolist(),
-                self.loss_factor.tolist(), self.in_vacuo_hz.tolist()))
+        return ModeList(names_at(basis.labels, self.index),
+                        names_at(basis.nodal_lines, self.index),
+                        self.frequency_hz, np.asarray(basis.multiplicity)[self.index],
+                        self.participation, self.loss_factor, self.in_vacuo_hz, self.index)
 
     def vector(self, k: int) -> np.ndarray:
         """Coordinates of reported mode ``k`` in ``basis`` (n_basis,)."""
