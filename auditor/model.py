@@ -11,6 +11,7 @@ per metre, hertz. Units exist only at the edges (``auditor.units``).
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from typing import Any, Literal
 
@@ -502,8 +503,10 @@ class PanelResult:
     Parameters
     ----------
     panel : Panel
-    modes : tuple of Mode
-        Every mode computed for the panel (up to the assessment limit).
+    modes : sequence of Mode
+        Every mode computed for the panel (up to the assessment limit), ascending. From the
+        audit it is a ``ModeList`` (``auditor.physics.modes``): arrays, each record made when
+        read.
     findings : tuple of Finding
         Worst first (``finding_rank``).
     loading : str
@@ -529,7 +532,7 @@ class PanelResult:
     """
 
     panel: Panel
-    modes: tuple[Mode, ...]
+    modes: Sequence[Mode]
     findings: tuple[Finding, ...]
     loading: str  # the loading model that applied, in words
     notes: tuple[str, ...] = ()
