@@ -449,3 +449,29 @@ def test_jobs_must_be_a_whole_number_of_processes():
     for bad in (0, -1, 1.5, True):
         with pytest.raises(ValueError, match="jobs"):
             audit_schedule(schedule, load_ruleset("standard"), jobs=bad)
+
+
+def test_a_panels_modes_read_as_records_and_travel_as_arrays():
+    # The mode list makes each record when read: it must read exactly as the records made one
+    # by one from the same arrays (index, slice, iteration, equality), and survive a round
+    # trip through pickle (how worker processes send it back).
+    import pickle
+
+    from auditor.model import Panel, SourceRef
+    from auditor.physics.modes import ModeList, modes_for
+
+    panel = Panel(panel="L-1", source=SourceRef("p.xlsx", "Panels", 3), width=1.8, length=1.2,
+                  material="film", areal_density=0.25, tension_x=900.0, tension_y=700.0,
+                  room_side="air", plenum_side="air")
+    solved = modes_for(panel, 300.0)
+    listed = solved.modes
+    assert isinstance(listed, ModeList) and len(listed) == len(solved.frequency_hz) > 50
+    records = [listed[k] for k in range(len(listed))]
+    assert list(listed) == records
+    assert listed[-1] == records[-1] and listed[5:9] == records[5:9]
+    assert [m.frequency_hz for m in records] == sorted(m.frequency_hz for m in records)
+    assert records[0].label == solved.labels[0]
+    again = pickle.loads(pickle.dumps(listed, protocol=pickle.HIGHEST_PROTOCOL))
+    assert isinstance(again, ModeList) and again == listed and list(again) == records
+    with pytest.raises(IndexError):
+        listed[len(listed)]
