@@ -26,9 +26,20 @@ from collections import OrderedDict
 from dataclasses import dataclass, field
 from typing import Callable, Hashable, TypeVar
 
-__all__ = ["SolveCache", "StoreInfo"]
+__all__ = ["SolveCache", "StoreInfo", "shared_size"]
 
 T = TypeVar("T")
+
+
+def shared_size(count: int) -> int:
+    """The next of 16, 24, 32, 48, 64, 96, 128, 192, ... (steps of 1.5 and 4/3) at or above
+    ``count``: how many entries a kept table or solve holds for a request of ``count``, so
+    that nearby requests share one entry (a key that depends on the request only through this
+    size), while a solve whose cost grows steeply with its size does little more than asked."""
+    size = 16
+    while size < count:
+        size = size * 3 // 2 if size & (size - 1) == 0 else size * 4 // 3
+    return size
 
 
 @dataclass(frozen=True)

@@ -45,12 +45,13 @@ __all__ = [
     "circular_participation",
 ]
 
+
 def bessel_zeros_below(x_max):
     """Every positive zero ``j_{m,n} ≤ x_max`` of the Bessel functions J_m, m = 0, 1, 2, ...
 
-    The zeros below the next power of two above ``x_max`` are computed once and kept (each is
-    refined to machine precision on its own, so the bound does not change them); this
-    returns those up to ``x_max``. See ``_bessel_zeros_below`` for the method.
+    The zeros below the next power of two above ``x_max`` are computed once and kept (the
+    first zeros of a longer list are the same numbers, so the bound does not change them);
+    this returns those up to ``x_max``. See ``_bessel_zeros_below`` for the method.
 
     Parameters
     ----------

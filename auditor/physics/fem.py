@@ -36,7 +36,7 @@ from scipy.sparse.linalg import eigsh
 
 from auditor.model import CircleCutout, Cutout
 from auditor.physics.basis import ModalBasis, PolygonRegion, complete_below
-from auditor.physics.cache import SolveCache
+from auditor.physics.cache import SolveCache, shared_size
 from auditor.physics.geometry import (
     as_vertices,
     circle_polygon_sides,
@@ -148,16 +148,6 @@ def _bucket(count: int) -> int:
     size = 16
     while size < count:
         size *= 2
-    return size
-
-
-def _fine_bucket(count: int) -> int:
-    """The next of 16, 24, 32, 48, 64, 96, 128, 192, ... (steps of 1.5 and 4/3): the number of
-    cavity modes solved for a request, so that nearby requests share a solve while the
-    Lanczos iteration, whose cost grows steeply with the count, does little more than asked."""
-    size = 16
-    while size < count:
-        size = size * 3 // 2 if size & (size - 1) == 0 else size * 4 // 3
     return size
 
 
@@ -468,7 +458,7 @@ def neumann_modes(
         raise ValueError("; ".join(problems))
     key = normalised_shape_key(outline, (), 1.0)
     normalisation = shape_normalisation(outline)
-    count = _fine_bucket(int(n_modes))
+    count = shared_size(int(n_modes))
     cache = SolveCache() if cache is None else cache
     solution = cache.neumann.get((key, accuracy, count),
                                  lambda: _normalised_neumann_solution(key, accuracy, count))

@@ -65,7 +65,7 @@ from auditor.physics.added_mass import (
 )
 from auditor.physics.basis import DiscShapes, ModalBasis, PolygonRegion, RectangleShapes
 from auditor.physics.basis_reach import REACH_MASS_MARGIN
-from auditor.physics.cache import SolveCache
+from auditor.physics.cache import SolveCache, shared_size
 from auditor.physics.loading_inputs import AIR_DENSITY, SPEED_OF_SOUND
 from auditor.physics.quadrature import quadrature_family
 
@@ -148,7 +148,7 @@ def self_added_mass(basis: ModalBasis, indices, cache: SolveCache | None = None
         if isinstance(family, RectangleShapes):
             m, n = family.m[indices], family.n[indices]
             aspect = float(f"{family.length / family.width:.12g}")
-            m_count, n_count = _table_size(int(m.max())), _table_size(int(n.max()))
+            m_count, n_count = shared_size(int(m.max())), shared_size(int(n.max()))
             table = cache.rectangle_tables.get(
                 ("self", aspect, m_count, n_count),
                 lambda: rectangle_self_table(aspect, m_count, n_count))
@@ -168,17 +168,6 @@ def self_added_mass(basis: ModalBasis, indices, cache: SolveCache | None = None
             return result, True
     area = float(basis.region.area)
     return area / mode_wavenumbers(basis, indices, cache), False
-
-
-def _table_size(count: int) -> int:
-    """The size of self-term table kept for ``count`` half-waves: the next of 16, 24, 32, 48,
-    64, 96, ... (steps of 1.5 and 4/3), so that the same outline at tensions some tens of per
-    cent apart (a remedy scan) shares one table; its Gauss rule follows the size, so a table
-    never depends on the request that made it."""
-    size = 16
-    while size < count:
-        size = size * 3 // 2 if size & (size - 1) == 0 else size * 4 // 3
-    return size
 
 
 @lru_cache(maxsize=1024)

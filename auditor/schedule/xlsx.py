@@ -243,6 +243,22 @@ def _worksheet_rows(parser, source, sheet: str, name: str, max_rows: int
     rows: dict[int, list[Any]] = {}
     merges: list[str] = []
     cells_held = 0
+
+    def row_of(index: int, width: int) -> list[Any]:
+        """Row ``index`` (made if new), at least ``width`` cells wide, within the limits."""
+        nonlocal cells_held
+        values = rows.get(index)
+        if values is None:
+            if len(rows) >= max_rows:
+                raise TooManyRows(max_rows, sheet)
+            values = rows[index] = []
+        if len(values) < width:
+            cells_held += width - len(values)
+            values.extend([None] * (width - len(values)))
+            if cells_held > MAX_SHEET_CELLS:
+                raise _too_many_cells(where, index, width)
+        return values
+
     for kind, item in _elements(source, ROW_TAG, where):
         if kind == "merge":
             merges.append(item)
@@ -260,18 +276,9 @@ def _worksheet_rows(parser, source, sheet: str, name: str, max_rows: int
             raise ScheduleFileError(
                 f"{where}, row {index}: a cell lies beyond column {column_letter(MAX_COLUMNS - 1)}"
                 f", where no spreadsheet program puts one; refusing")
-        values = rows.get(index)
-        if values is None:
-            if len(rows) >= max_rows:
-                raise TooManyRows(max_rows, sheet)
-            values = rows[index] = []
-        if len(values) < width:
-            cells_held += width - len(values)
-            values.extend([None] * (width - len(values)))
+        values = row_of(index, width)
         for column, value in valued:
             values[column - 1] = value
-        if cells_held > MAX_SHEET_CELLS:
-            raise _too_many_cells(where, index, width)
     last = max(rows, default=0)  # a merge never makes rows below the last with data
     filled = 0
     for ref in merges:
@@ -290,16 +297,7 @@ def _worksheet_rows(parser, source, sheet: str, name: str, max_rows: int
             if filled > MAX_MERGED_CELLS:
                 raise ScheduleFileError(f"{where}: merged ranges fill more than "
                                         f"{MAX_MERGED_CELLS:,} cells; refusing")
-            row = rows.get(r)
-            if row is None:
-                if len(rows) >= max_rows:
-                    raise TooManyRows(max_rows, sheet)
-                row = rows[r] = []
-            if len(row) < min_col:
-                cells_held += min_col - len(row)
-                row.extend([None] * (min_col - len(row)))
-                if cells_held > MAX_SHEET_CELLS:
-                    raise _too_many_cells(where, r, min_col)
+            row = row_of(r, min_col)
             if row[min_col - 1] is None:
                 row[min_col - 1] = value
     return _finish_rows(rows)
