@@ -121,7 +121,10 @@ def test_circular_membrane_empty_and_capped():
     assert f.size == m.size == n.size == mult.size == 0
     full = circular_membrane_frequencies(1000.0, 0.25, 0.5, 800.0)
     capped = circular_membrane_frequencies(1000.0, 0.25, 0.5, math.inf, max_modes=7)
-    for a, b in zip(full, capped):
+    # the same modes; the zeros of the two bounds are polished from different matrix
+    # sections, so they may differ in the last place or two
+    np.testing.assert_allclose(full[0][:7], capped[0], rtol=1e-14)
+    for a, b in zip(full[1:], capped[1:]):
         np.testing.assert_array_equal(a[:7], b)
 
 

@@ -45,6 +45,7 @@ from scipy import sparse, special
 from scipy.spatial import cKDTree, distance
 
 from auditor.physics.basis import DiscShapes, ModalBasis, RectangleShapes
+from auditor.physics.bessel import bessel_zeros
 from auditor.physics.cache import SolveCache
 from auditor.physics.loading_inputs import AIR_DENSITY
 from auditor.physics.loading_inputs import positive as _positive
@@ -400,16 +401,10 @@ def hankel_rule(x_max: float, per_panel: int = 10,
     return x, w
 
 
-@lru_cache(maxsize=512)
-def bessel_zeros(order: int, count: int) -> np.ndarray:
-    """The first ``count`` positive zeros of J_m (cached)."""
-    return special.jn_zeros(order, count)
-
-
 @lru_cache(maxsize=256)
 def _disc_order_table(order: int, count: int) -> np.ndarray:
     """∫₀^∞ h_p h_q dx for the first ``count`` zeros of J_m (unit radius, unscaled shapes)."""
-    zeros = special.jn_zeros(order, count)
+    zeros = bessel_zeros(order, count)
     x, w = hankel_rule(240.0 + 2.0 * float(zeros[-1]))
     tail_start = x[-1] + (x[-1] - x[-2])
     h = bessel_transform(order, zeros, x)

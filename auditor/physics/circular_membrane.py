@@ -34,6 +34,7 @@ from scipy import special
 
 from auditor.physics.arguments import positive as _positive
 from auditor.physics.basis import CircleRegion, DiscShapes, IndexedNames, ModalBasis, complete_below
+from auditor.physics.bessel import bessel_zeros_below as _zeros_below
 from auditor.physics.spectrum_limits import BOUND_SLACK as _BOUND_SLACK
 from auditor.physics.spectrum_limits import frequency_limit as _frequency_limit
 
@@ -49,9 +50,10 @@ __all__ = [
 def bessel_zeros_below(x_max):
     """Every positive zero ``j_{m,n} ≤ x_max`` of the Bessel functions J_m, m = 0, 1, 2, ...
 
-    The zeros below the next power of two above ``x_max`` are computed once and kept (the
-    first zeros of a longer list are the same numbers, so the bound does not change them);
-    this returns those up to ``x_max``. See ``_bessel_zeros_below`` for the method.
+    The zeros below the next power of two above ``x_max`` are computed once and kept (that
+    bound is a function of ``x_max`` alone, so the zeros do not depend on earlier calls);
+    this returns those up to ``x_max``. See :func:`auditor.physics.bessel.bessel_zeros_below`
+    for the method.
 
     Parameters
     ----------
@@ -83,56 +85,11 @@ def _zeros_and_slopes_below(x_max: float):
 
 @lru_cache(maxsize=32)
 def _bessel_zeros_below_cached(bound: float):
-    order, rank, zero = _bessel_zeros_below(bound)
+    order, rank, zero = _zeros_below(bound)
     slope = special.jv(order + 1.0, zero)
     for array in (order, rank, zero, slope):
         array.setflags(write=False)   # memoised (a pure function of the bound)
     return order, rank, zero, slope
-
-
-def _bessel_zeros_below(x_max):
-    """Every positive zero ``j_{m,n} ≤ x_max`` of the Bessel functions J_m, m = 0, 1, 2, ...
-
-    From ``scipy.special.jn_zeros`` order by order. No order above ``x_max`` has a zero below
-    it (j_{m,1} > m), and J_m (m ≥ 1) has at most ``(x_max − m)/π + 1`` zeros up to ``x_max``
-    (consecutive zeros are more than π apart; for m = 0 they approach π from below, and
-    j_{0,n} > (n − ¼)π); each order is asked for two more than that, and for more again if the
-    last one returned still lies below ``x_max``.
-
-    Parameters
-    ----------
-    x_max : float  [-]
-
-    Returns
-    -------
-    order, rank, zero
-        As :func:`bessel_zeros_below`.
-
-    References
-    ----------
-    Abramowitz & Stegun, §9.5 (zeros, j_{m,1} > m); Watson, *A Treatise on the Theory of
-    Bessel Functions*, ch. XV (spacing of zeros); SciPy, ``scipy.special.jn_zeros``.
-    """
-    x_max = float(x_max)
-    empty_int = np.empty(0, dtype=np.int64)
-    if not x_max > 0.0:
-        return empty_int, empty_int, np.empty(0)
-    orders, ranks, zeros = [], [], []
-    for m in range(int(math.floor(x_max)) + 1):
-        count = int((x_max - m) / math.pi) + 3
-        found = special.jn_zeros(m, count)
-        while found[-1] <= x_max:      # never seen; kept so that no zero can be missed
-            count *= 2
-            found = special.jn_zeros(m, count)
-        found = found[found <= x_max]
-        if len(found) == 0:
-            continue
-        orders.append(np.full(len(found), m, dtype=np.int64))
-        ranks.append(np.arange(1, len(found) + 1, dtype=np.int64))
-        zeros.append(found)
-    if not zeros:
-        return empty_int, empty_int, np.empty(0)
-    return np.concatenate(orders), np.concatenate(ranks), np.concatenate(zeros)
 
 
 def circular_mode_frequency(zero, tension, areal_density, radius):
