@@ -2,8 +2,8 @@
 
 One module per format; this one gathers their public names so callers import from one place:
 
-- ``auditor.report.json_doc``: ``findings.json`` / ``auditor audit --json`` (plain data through
-  the standard ``json`` module);
+- ``auditor.report.json_doc``: ``findings.json`` / ``auditor audit --json`` (plain data encoded by
+  ``orjson``);
 - ``auditor.report.csv_table``: ``findings.csv`` (one row per finding, per panel with no
   finding, per rejected row);
 - ``auditor.report.workbook``: ``<schedule>-audited.xlsx`` (the schedule copy with verdict
