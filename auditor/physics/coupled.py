@@ -54,6 +54,7 @@ __all__ = [
     "frequency_independent_solution",
     "open_sided_modes",
     "real_mode_vectors",
+    "solve_stack",
 ]
 
 
@@ -301,12 +302,12 @@ def _matrices_stack(system: ModalSystem, frequencies: np.ndarray, block):
         return k_s[None] + k_cav, system.structural_mass * eye[None] + air, None
     z = 1j * omega * air - 1j * k_cav / omega
     ra = system.resistance
-    transfer = _solved(ra * eye[None] + z, np.broadcast_to(ra * eye, z.shape))
+    transfer = solve_stack(ra * eye[None] + z, np.broadcast_to(ra * eye, z.shape))
     mass = system.structural_mass * eye[None] - 1j * (z @ transfer) / omega
     return np.broadcast_to(k_s, mass.shape), mass, transfer
 
 
-def _solved(matrices: np.ndarray, right: np.ndarray) -> np.ndarray:
+def solve_stack(matrices: np.ndarray, right: np.ndarray) -> np.ndarray:
     """``matrices⁻¹ right`` for a stack; a matrix that is exactly singular gives NaN (the
     caller keeps its previous iterate), the others their solution."""
     with np.errstate(all="ignore"):
@@ -349,7 +350,7 @@ def follow_modes(system: ModalSystem, blocks, vectors: np.ndarray, frequencies: 
                 break
             stiffness, mass, _ = _matrices_stack(system, f[active], block)
             xa = x[active]
-            y = _solved(stiffness - lam[active, None, None] * mass,
+            y = solve_stack(stiffness - lam[active, None, None] * mass,
                         (mass @ xa[:, :, None]))[:, :, 0]
             norm = np.linalg.norm(y, axis=1)
             good = np.all(np.isfinite(y), axis=1) & (norm > 0)
