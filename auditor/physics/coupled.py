@@ -329,8 +329,11 @@ def follow_modes(system: ModalSystem, blocks, vectors: np.ndarray, frequencies: 
     """Inverse iteration of each mode (columns of ``vectors``, starting at ``frequencies``
     [Hz]) on the frequency-dependent problem, its frequency made self-consistent (Rayleigh
     functional) at each step: ``x ← (K(f) − λ M(f))⁻¹ M(f) x``, ``λ = xᵀKx / xᵀMx``, until λ
-    changes by at most 1e-10. The modes of one symmetry block are iterated together (their
-    matrices stacked), each stopping when it has converged."""
+    changes by at most 1e-8 of itself (the frequency within about 1e-8: the step converges
+    by about three digits an iteration, and asking 1e-10 took a fifth more iterations for
+    changes below 3e-9 in frequency on 1,000 panels over sealed cavities). The modes of one
+    symmetry block are iterated together (their matrices stacked), each stopping when it has
+    converged."""
     n, count = vectors.shape
     result: list[FollowedMode | None] = [None] * count
     dominant = np.argmax(np.abs(vectors), axis=0)
@@ -358,7 +361,7 @@ def follow_modes(system: ModalSystem, blocks, vectors: np.ndarray, frequencies: 
             x[active] = xa
             lam_new = (np.einsum("ki,kij,kj->k", xa, stiffness, xa)
                        / np.einsum("ki,kij,kj->k", xa, mass, xa))
-            done = np.abs(lam_new - lam[active]) <= 1e-10 * np.abs(lam_new)
+            done = np.abs(lam_new - lam[active]) <= 1e-8 * np.abs(lam_new)
             lam[active] = lam_new
             f[active] = np.sqrt(np.maximum(lam_new.real, 0.0)) / (2 * np.pi)
             active = active[~done]
