@@ -207,10 +207,13 @@ def _point_spectra(family: PointShapes, kappa: np.ndarray, count: int):
     """
     theta = np.arange(count) * np.pi / count
     projection = np.column_stack([np.cos(theta), np.sin(theta)]) @ family.points.T  # (D, P)
-    weighted = family.values * family.weights[:, None]                             # (P, n)
+    # The sums in single precision, as the rectangle's sine spectra (twice the speed of
+    # double; the phases are stepped in double): about 1e-7 of the density, which enters
+    # only the compressible correction and the radiation loss factor.
+    weighted = (family.values * family.weights[:, None]).astype(np.float32)         # (P, n)
     n = weighted.shape[1]
-    cosines = np.empty((n, count, len(kappa)))
-    sines = np.empty((n, count, len(kappa)))
+    cosines = np.empty((n, count, len(kappa)), dtype=np.float32)
+    sines = np.empty((n, count, len(kappa)), dtype=np.float32)
     steps = np.diff(kappa)
     j = 0
     while j < len(kappa):
@@ -227,8 +230,8 @@ def _point_spectra(family: PointShapes, kappa: np.ndarray, count: int):
         for node in range(j, stop):
             if node > j:
                 phase *= turn
-            cosines[:, :, node] = (np.ascontiguousarray(phase.real) @ weighted).T
-            sines[:, :, node] = (np.ascontiguousarray(phase.imag) @ weighted).T
+            cosines[:, :, node] = (phase.real.astype(np.float32) @ weighted).T
+            sines[:, :, node] = (phase.imag.astype(np.float32) @ weighted).T
         j = stop
     return cosines.reshape(n, -1), sines.reshape(n, -1)
 
