@@ -61,7 +61,6 @@ from auditor.physics.added_mass import (
     bessel_zeros,
     hankel_rule,
     rectangle_self_table,
-    rounded_up,
 )
 from auditor.physics.basis import DiscShapes, ModalBasis, PolygonRegion, RectangleShapes
 from auditor.physics.basis_reach import REACH_MASS_MARGIN
@@ -159,7 +158,9 @@ def self_added_mass(basis: ModalBasis, indices, cache: SolveCache | None = None
             for m in np.unique(order):
                 here = np.flatnonzero(order == m)
                 rank = family.radial[indices[here]]
-                count = rounded_up(int(rank.max()) + 1)
+                # a power of two (at least 8): the orders of one disc ask for several
+                # counts as its tension changes, and each count is a fresh quadrature
+                count = max(8, 1 << int(rank.max()).bit_length())
                 diagonal = _disc_self(int(m), count)[rank]
                 scale = family.scale[indices[here]]
                 # as added_mass._disc_added_mass, divided by 2π: a³ ε_m scale² ∫h_p² dx
