@@ -40,6 +40,7 @@ from auditor.report.chart_parts import (
     string_boxes,
     text_box,
 )
+from auditor.report.digest import modes_between
 from auditor.report.figures import (
     FigureStyle,
     frequency_axis_range,
@@ -105,11 +106,11 @@ def interference_chart(result: PanelResult, excitations: Sequence[Excitation], *
 
     tone_f = [v for e in excitations for v in (e.low_hz, e.high_hz)]
     span = tone_f + [f.mode.frequency_hz for f in findings] + list(result.measured_peaks_hz)
-    modes_sorted = sorted(result.modes, key=lambda m: m.frequency_hz)
-    if modes_sorted:
-        span.append(modes_sorted[0].frequency_hz)
-    if not tone_f and modes_sorted:
-        span.append(modes_sorted[-1].frequency_hz)
+    modes = result.modes                  # ascending in frequency
+    if len(modes):
+        span.append(modes[0].frequency_hz)
+    if not tone_f and len(modes):
+        span.append(modes[-1].frequency_hz)
     f_low, f_high = frequency_axis_range(span)
     log_low, log_span = math.log10(f_low), math.log10(f_high / f_low)
 
@@ -219,9 +220,7 @@ def interference_chart(result: PanelResult, excitations: Sequence[Excitation], *
     ticks = Path(strokeColor=weak, strokeWidth=0.5, fillColor=None)
     seen: set[int] = set()
     driven: list[Mode] = []
-    for mode in modes_sorted:
-        if not (f_low <= mode.frequency_hz <= f_high):
-            continue
+    for mode in modes_between(modes, f_low, f_high):
         key = (mode.label, round(mode.frequency_hz, 9))
         if mode.participation >= participation_threshold or key in mode_severity:
             driven.append(mode)
@@ -279,8 +278,7 @@ def _interference_legend(result: PanelResult, excitations: Sequence[Excitation],
                          threshold: float, f_low: float, f_high: float,
                          style: FigureStyle) -> list[LegendItem]:
     items = [LegendItem("sizes", "mode, sized by participation", style.mode)]
-    if any(m.participation < threshold and f_low <= m.frequency_hz <= f_high
-           for m in result.modes):
+    if any(m.participation < threshold for m in modes_between(result.modes, f_low, f_high)):
         items.append(LegendItem("tick", f"mode hardly driven (participation < {threshold:g})",
                                 style.mode))
     severities = {f.severity for f in result.findings}

@@ -20,6 +20,7 @@ References
 
 from __future__ import annotations
 
+import bisect
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
@@ -109,8 +110,22 @@ def excitations_reaching(result: AuditResult, panel: Panel) -> tuple[Excitation,
 
 
 def fundamental(modes: Sequence[Mode]) -> Mode | None:
-    """The lowest mode (the one a tap test shows first), or None."""
-    return min(modes, key=lambda m: m.frequency_hz, default=None)
+    """The lowest mode (the one a tap test shows first), or None; ``modes`` ascending in
+    frequency, as ``PanelResult.modes`` are."""
+    return modes[0] if len(modes) else None
+
+
+def modes_between(modes: Sequence[Mode], low_hz: float, high_hz: float) -> Sequence[Mode]:
+    """The modes with ``low_hz`` ≤ f ≤ ``high_hz`` [Hz] of ``modes`` ascending in frequency
+    (as ``PanelResult.modes``), found by bisection: a panel may have tens of thousands of
+    modes, held as arrays (``auditor.physics.modes.ModeList``), and a chart reads a few."""
+    start = bisect.bisect_left(modes, low_hz, key=_frequency)
+    stop = bisect.bisect_right(modes, high_hz, key=_frequency)
+    return modes[start:max(start, stop)]
+
+
+def _frequency(mode: Mode) -> float:
+    return mode.frequency_hz
 
 
 # ---------------------------------------------------------------------------------------------
@@ -436,8 +451,8 @@ def tuning_modes(pr: PanelResult, excitations: Sequence[Excitation], ruleset: An
     that pass through a tone's conflict window somewhere in the tension range, most
     participating first."""
     span = tension_range(pr.panel, ruleset)
-    modes = sorted(pr.modes, key=lambda m: m.frequency_hz)
-    if span is None or not modes:
+    modes = pr.modes                      # ascending in frequency
+    if span is None or not len(modes):
         return []
     low, high, _ = span
     t0 = pr.panel.tension_x
@@ -625,10 +640,12 @@ def tap_test_rows(result: AuditResult) -> list[TapTestRow]:
                                    uncertainty_text(record), matched, "calibration",
                                    tuple(record.notes)))
             continue
-        modes = sorted(pr.modes, key=lambda m: m.frequency_hz)
+        modes = pr.modes                  # ascending: the nearest is a neighbour of the peak
         matched_list = []
         for peak in pr.measured_peaks_hz:
-            near = min(modes, key=lambda m: abs(math.log(m.frequency_hz / peak)), default=None)
+            at = bisect.bisect_left(modes, peak, key=_frequency)
+            near = min(modes[max(at - 1, 0):at + 1],
+                       key=lambda m: abs(math.log(m.frequency_hz / peak)), default=None)
             if near is None:
                 continue
             matched_list.append((peak, near.label, near.frequency_hz,

@@ -202,9 +202,6 @@ def shape_drawings(b: ReportBuilder, pr: PanelResult) -> list[Flowable]:
     """The mode shapes that matter: those of the worst findings, and the fundamental."""
     if not pr.shapes:
         return []
-    by_label: dict[str, Any] = {}
-    for mode in pr.modes:
-        by_label.setdefault(mode.label, mode)
     note: dict[str, str] = {}
     order: list[str] = []
     for f in pr.findings:  # worst first
@@ -219,6 +216,14 @@ def shape_drawings(b: ReportBuilder, pr: PanelResult) -> list[Flowable]:
     chosen = [available[label] for label in order if label in available][:SHAPES_SHOWN]
     if not chosen:
         chosen = list(pr.shapes[:SHAPES_SHOWN])
+    # the lowest mode of each label drawn (the modes are ascending; stop once all are found)
+    wanted = {s.label for s in chosen}
+    by_label: dict[str, Any] = {}
+    for mode in pr.modes:
+        if mode.label in wanted:
+            by_label.setdefault(mode.label, mode)
+            if len(by_label) == len(wanted):
+                break
     cell_w = b.frame_width / SHAPES_SHOWN
     drawings = [mode_shape_drawing(s, pr.panel, by_label.get(s.label), width=cell_w - 6,
                                    height=98, style=b.figure_style,
