@@ -381,6 +381,32 @@ def test_porous_sheet_over_sealed_cavity_lies_between_its_limits_on_a_trapezoid(
     assert np.all(middle.loss_factor > eta)
 
 
+def test_porous_operator_solved_through_its_schur_complement_matches_the_whole_solve():
+    # porous._Block solves T(ω) z = b through the n × n Schur complement of the panel's
+    # diagonal part; numpy.linalg.solve of the whole 2n × 2n operator (the standard library
+    # route) must give the same z at complex ω, to rounding.
+    from auditor.physics import porous
+    from auditor.physics.coupled import assemble_system
+
+    basis = _rectangle(400.0, 0.2, 1.2, 0.9)(400.0)
+    system = assemble_system(basis, 0.2, 1, 0.08, 900.0, 1.21, 343.0, 0.05, SolveCache())
+    block = system.family.blocks()[1]
+    part = porous._Block(system, block)
+    rng = np.random.default_rng(7)
+    w = 2 * np.pi * np.array([35.0 + 2.0j, 120.0 + 9.0j, 310.0 + 1.0j])
+    n = len(block)
+    bq = rng.standard_normal((3, n)) + 1j * rng.standard_normal((3, n))
+    bu = rng.standard_normal((3, n)) + 1j * rng.standard_normal((3, n))
+    springs, masses = part.air_matrices(w.real / (2 * np.pi))
+    yq, yu = part.solve(w, springs, masses, bq, bu)
+    for k in range(3):
+        stiffness, mass, damping = porous._porous_operator(system, block, w[k].real / (2 * np.pi))
+        whole = stiffness - w[k] ** 2 * mass + 1j * w[k] * damping
+        z = np.linalg.solve(whole, np.concatenate([bq[k], bu[k]]))
+        scale = np.max(np.abs(z))
+        assert np.max(np.abs(np.concatenate([yq[k], yu[k]]) - z)) <= 1e-9 * scale
+
+
 def test_square_polygon_matches_the_rectangle_with_porous_sheet_and_sealed_cavity():
     # The same 1.2 m × 0.9 m panel by finite elements (40 modes, cavity modes by finite
     # elements) and by the analytic rectangle path (sine modes, cosine cavity modes; Morse &
