@@ -32,7 +32,7 @@ from functools import lru_cache
 import numpy as np
 from scipy import linalg, special
 
-__all__ = ["bessel_zeros", "bessel_zeros_below"]
+__all__ = ["bessel_zeros", "bessel_zeros_below", "zeros_and_slopes_below"]
 
 #: Largest Newton correction [relative] accepted from the matrix's eigenvalues.
 _POLISH_TOLERANCE = 1e-10
@@ -93,6 +93,10 @@ def bessel_zeros(order: int, count: int) -> np.ndarray:
 def bessel_zeros_below(x_max: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Every positive zero ``j_{m,n} ≤ x_max`` of the Bessel functions J_m, m = 0, 1, 2, ...
 
+    The zeros below the next power of two above ``x_max`` are computed once and kept (that
+    bound is a function of ``x_max`` alone, so the zeros do not depend on earlier calls);
+    this returns those up to ``x_max``.
+
     No order above ``x_max`` has a zero below it (j_{m,1} > m), and J_m (m ≥ 1) has at most
     ``(x_max − m)/π + 1`` zeros up to ``x_max`` (consecutive zeros are more than π apart; for
     m = 0 they approach π from below, and j_{0,n} > (n − ¼)π); each order is asked for two
@@ -114,6 +118,34 @@ def bessel_zeros_below(x_max: float) -> tuple[np.ndarray, np.ndarray, np.ndarray
     Abramowitz & Stegun, §9.5; G. N. Watson, *A Treatise on the Theory of Bessel Functions*,
     ch. XV (spacing of zeros).
     """
+    x_max = float(x_max)
+    if not x_max > 0.0:
+        empty_int = np.empty(0, dtype=np.int64)
+        return empty_int, empty_int, np.empty(0)
+    order, rank, zero, _ = zeros_and_slopes_below(x_max)
+    return order, rank, zero
+
+
+def zeros_and_slopes_below(x_max: float):
+    """As :func:`bessel_zeros_below` (``x_max`` > 0), with ``J_{m+1}(j_{m,n})`` of each zero
+    (= −J_m'(j_{m,n}), the scale of a circular membrane's mode shape)."""
+    bound = 2.0 ** math.ceil(math.log2(max(x_max, 1.0)))
+    order, rank, zero, slope = _zeros_below_cached(bound)
+    keep = zero <= x_max
+    return order[keep], rank[keep], zero[keep], slope[keep]
+
+
+@lru_cache(maxsize=32)
+def _zeros_below_cached(bound: float):
+    order, rank, zero = _zeros_below(bound)
+    slope = special.jv(order + 1.0, zero)
+    for array in (order, rank, zero, slope):
+        array.setflags(write=False)   # memoised (a pure function of the bound)
+    return order, rank, zero, slope
+
+
+def _zeros_below(x_max: float):
+    """The zeros of :func:`bessel_zeros_below`, computed (order by order)."""
     x_max = float(x_max)
     orders, ranks, zeros = [], [], []
     if x_max > 0.0:

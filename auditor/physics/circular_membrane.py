@@ -27,14 +27,14 @@ References
 from __future__ import annotations
 
 import math
-from functools import lru_cache, partial
+from functools import partial
 
 import numpy as np
 from scipy import special
 
 from auditor.physics.arguments import positive as _positive
 from auditor.physics.basis import CircleRegion, DiscShapes, IndexedNames, ModalBasis, complete_below
-from auditor.physics.bessel import bessel_zeros_below as _zeros_below
+from auditor.physics.bessel import bessel_zeros_below, zeros_and_slopes_below
 from auditor.physics.spectrum_limits import BOUND_SLACK as _BOUND_SLACK
 from auditor.physics.spectrum_limits import frequency_limit as _frequency_limit
 
@@ -45,51 +45,6 @@ __all__ = [
     "circular_mode_frequency",
     "circular_participation",
 ]
-
-
-def bessel_zeros_below(x_max):
-    """Every positive zero ``j_{m,n} ≤ x_max`` of the Bessel functions J_m, m = 0, 1, 2, ...
-
-    The zeros below the next power of two above ``x_max`` are computed once and kept (that
-    bound is a function of ``x_max`` alone, so the zeros do not depend on earlier calls);
-    this returns those up to ``x_max``. See :func:`auditor.physics.bessel.bessel_zeros_below`
-    for the method.
-
-    Parameters
-    ----------
-    x_max : float  [-]
-
-    Returns
-    -------
-    order, rank : ndarray of int (k,)  [-]
-        m and n of each zero, sorted by m, then n.
-    zero : ndarray of float (k,)  [-]
-        j_{m,n}.
-    """
-    x_max = float(x_max)
-    if not x_max > 0.0:
-        empty_int = np.empty(0, dtype=np.int64)
-        return empty_int, empty_int, np.empty(0)
-    order, rank, zero, _ = _zeros_and_slopes_below(x_max)
-    return order, rank, zero
-
-
-def _zeros_and_slopes_below(x_max: float):
-    """As :func:`bessel_zeros_below` (``x_max`` > 0), with ``J_{m+1}(j_{m,n})`` of each zero
-    (= −J_m'(j_{m,n}), the scale of its mode shape)."""
-    bound = 2.0 ** math.ceil(math.log2(max(x_max, 1.0)))
-    order, rank, zero, slope = _bessel_zeros_below_cached(bound)
-    keep = zero <= x_max
-    return order[keep], rank[keep], zero[keep], slope[keep]
-
-
-@lru_cache(maxsize=32)
-def _bessel_zeros_below_cached(bound: float):
-    order, rank, zero = _zeros_below(bound)
-    slope = special.jv(order + 1.0, zero)
-    for array in (order, rank, zero, slope):
-        array.setflags(write=False)   # memoised (a pure function of the bound)
-    return order, rank, zero, slope
 
 
 def circular_mode_frequency(zero, tension, areal_density, radius):
@@ -160,13 +115,13 @@ def _circle_spectrum(tension, areal_density, radius, fmax, max_modes):
         # Grow the search until it holds max_modes zeros.
         x_max = math.pi * (math.sqrt(max_modes) + 2.0)
         while True:
-            order, rank, zero, slope = _zeros_and_slopes_below(x_max)
+            order, rank, zero, slope = zeros_and_slopes_below(x_max)
             if order.size >= max_modes:
                 break
             x_max *= 1.5
     else:
         x_max = fmax / to_frequency
-        order, rank, zero, slope = _zeros_and_slopes_below(x_max * (1.0 + _BOUND_SLACK))
+        order, rank, zero, slope = zeros_and_slopes_below(x_max * (1.0 + _BOUND_SLACK))
     frequency = zero * to_frequency
     keep = frequency <= fmax
     order, rank, zero, frequency = order[keep], rank[keep], zero[keep], frequency[keep]
