@@ -55,7 +55,7 @@ __all__ = ["INDENT_PANELS", "finding_dict", "remedy_dict", "panel_dict", "panel_
            "findings_document", "findings_json", "write_json"]
 
 #: Up to this many panels the JSON is indented for people to read; above it, compact (a
-#: document for programs, a third smaller).
+#: document that large is for programs).
 INDENT_PANELS = 500
 
 
