@@ -55,7 +55,6 @@ __all__ = [
     "angular_weight",
     "baffled_added_mass",
     "bessel_transform",
-    "bessel_zeros",
     "hankel_rule",
     "rectangle_self_table",
     "rounded_up",

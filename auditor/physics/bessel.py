@@ -49,6 +49,7 @@ def _section_zeros(order: int, count: int, size: int) -> np.ndarray:
 
 
 def _first_zeros(order: int, count: int) -> np.ndarray:
+    """:func:`bessel_zeros` without the checks and the memo."""
     size = 2 * count + 40 + order // 2
     while True:
         zeros = _section_zeros(order, count, size)
@@ -145,22 +146,20 @@ def _zeros_below_cached(bound: float):
 
 
 def _zeros_below(x_max: float):
-    """The zeros of :func:`bessel_zeros_below`, computed (order by order)."""
-    x_max = float(x_max)
+    """The zeros of :func:`bessel_zeros_below` (``x_max`` ≥ 1), computed order by order."""
     orders, ranks, zeros = [], [], []
-    if x_max > 0.0:
-        for m in range(int(math.floor(x_max)) + 1):
-            count = int((x_max - m) / math.pi) + 3
+    for m in range(int(math.floor(x_max)) + 1):
+        count = int((x_max - m) / math.pi) + 3
+        found = _first_zeros(m, count)
+        while found[-1] <= x_max:      # never seen; kept so that no zero can be missed
+            count *= 2
             found = _first_zeros(m, count)
-            while found[-1] <= x_max:      # never seen; kept so that no zero can be missed
-                count *= 2
-                found = _first_zeros(m, count)
-            found = found[found <= x_max]
-            if len(found) == 0:
-                continue
-            orders.append(np.full(len(found), m, dtype=np.int64))
-            ranks.append(np.arange(1, len(found) + 1, dtype=np.int64))
-            zeros.append(found)
+        found = found[found <= x_max]
+        if len(found) == 0:
+            continue
+        orders.append(np.full(len(found), m, dtype=np.int64))
+        ranks.append(np.arange(1, len(found) + 1, dtype=np.int64))
+        zeros.append(found)
     if not zeros:
         empty_int = np.empty(0, dtype=np.int64)
         return empty_int, empty_int, np.empty(0)

@@ -354,7 +354,7 @@ def follow_modes(system: ModalSystem, blocks, vectors: np.ndarray, frequencies: 
             stiffness, mass, _ = _matrices_stack(system, f[active], block)
             xa = x[active]
             y = solve_stack(stiffness - lam[active, None, None] * mass,
-                        (mass @ xa[:, :, None]))[:, :, 0]
+                            (mass @ xa[:, :, None]))[:, :, 0]
             norm = np.linalg.norm(y, axis=1)
             good = np.all(np.isfinite(y), axis=1) & (norm > 0)
             xa = np.where(good[:, None], y / np.where(good, norm, 1.0)[:, None], xa)

@@ -124,7 +124,7 @@ def _quadratic_coefficients(part: _Block, springs, masses, q: np.ndarray, u: np.
     return mass, damping, stiffness
 
 
-def _refine_porous(system: ModalSystem, block, vectors: np.ndarray, roots: np.ndarray,
+def _refine_porous(part: _Block, vectors: np.ndarray, roots: np.ndarray,
                    iterations: int = 6) -> tuple[np.ndarray, np.ndarray]:
     """Follow roots as the cavity's matrices change with frequency: nonlinear inverse
     iteration z ← T(ω)⁻¹ T'(ω) z, ω the root of the scalar quadratic zᵀT(ω)z = 0 nearest
@@ -135,8 +135,7 @@ def _refine_porous(system: ModalSystem, block, vectors: np.ndarray, roots: np.nd
     takes the air's matrices at every root's frequency and solves them as one stack
     (through :class:`_Block`).
     """
-    part = _Block(system, block)
-    n = len(block)
+    n = len(part.block)
     z, omega = vectors.astype(complex), roots.astype(complex)
     start_z, start = z.copy(), omega.copy()
     active = np.arange(len(omega))
@@ -211,18 +210,15 @@ def porous_modes(system: ModalSystem, blocks, f_reach: float, count: int) -> lis
             continue
         size = len(block)
         vectors = np.column_stack([found[j][2] / np.linalg.norm(found[j][2]) for j in mine])
-        vectors, roots = _refine_porous(system, block, vectors,
-                                        np.array([found[j][0] for j in mine]))
+        part = _Block(system, block)
+        vectors, roots = _refine_porous(part, vectors, np.array([found[j][0] for j in mine]))
         # Unit panel norm, dominant panel coordinate real and positive.
         q = vectors[:size]
         dominant = q[np.argmax(np.abs(q), axis=0), np.arange(q.shape[1])]
         vectors = vectors * (np.abs(dominant) / dominant) / np.linalg.norm(q, axis=0)
         q, u = vectors[:size].T, vectors[size:].T                          # (k, n)
-        frequency = roots.real / (2 * np.pi)
-        part = _Block(system, block)
-        springs, masses = part.air_matrices(frequency)
-        numerator = (np.sum(q * part.panel_stiffness[None, :] * q, axis=1)
-                     + np.einsum("ki,kij,kj->k", u, springs, u))
+        springs, masses = part.air_matrices(roots.real / (2 * np.pi))
+        _, _, numerator = _quadratic_coefficients(part, springs, masses, q, u)
         # Kinetic mass of the panel and the air moving with it (radiation loss factor).
         kinetic = (part.panel_mass * np.sum(np.abs(q) ** 2, axis=1)
                    + np.real(np.einsum("ki,kij,kj->k", np.conj(u), masses.real, u)))

@@ -58,12 +58,12 @@ from scipy import special
 from auditor.physics.added_mass import (
     angular_weight,
     bessel_transform,
-    bessel_zeros,
     hankel_rule,
     rectangle_self_table,
 )
 from auditor.physics.basis import DiscShapes, ModalBasis, PolygonRegion, RectangleShapes
 from auditor.physics.basis_reach import REACH_MASS_MARGIN
+from auditor.physics.bessel import bessel_zeros
 from auditor.physics.cache import SolveCache, shared_size
 from auditor.physics.loading_inputs import AIR_DENSITY, SPEED_OF_SOUND
 from auditor.physics.quadrature import quadrature_family

@@ -40,13 +40,13 @@ from auditor.report.chart_parts import (
     string_boxes,
     text_box,
 )
-from auditor.report.digest import modes_between
 from auditor.report.figures import (
     FigureStyle,
     frequency_axis_range,
     log_frequency_ticks,
     participation_marker_radius,
 )
+from auditor.report.records import modes_between
 from auditor.report.text import format_hz
 
 __all__ = [

@@ -37,6 +37,7 @@ from auditor.model import (
     PanelResult,
     Project,
 )
+from auditor.report.records import fundamental, mode_frequency
 from auditor.report.text import format_hz
 
 __all__ = [
@@ -108,24 +109,6 @@ def excitations_reaching(result: AuditResult, panel: Panel) -> tuple[Excitation,
         return tuple(e for _, excs in result.excitations for e in excs)
     return reaching(panel, pairs, result.ruleset)
 
-
-def fundamental(modes: Sequence[Mode]) -> Mode | None:
-    """The lowest mode (the one a tap test shows first), or None; ``modes`` ascending in
-    frequency, as ``PanelResult.modes`` are."""
-    return modes[0] if len(modes) else None
-
-
-def modes_between(modes: Sequence[Mode], low_hz: float, high_hz: float) -> Sequence[Mode]:
-    """The modes with ``low_hz`` ≤ f ≤ ``high_hz`` [Hz] of ``modes`` ascending in frequency
-    (as ``PanelResult.modes``), found by bisection: a panel may have tens of thousands of
-    modes, held as arrays (``auditor.physics.modes.ModeList``), and a chart reads a few."""
-    start = bisect.bisect_left(modes, low_hz, key=_frequency)
-    stop = bisect.bisect_right(modes, high_hz, key=_frequency)
-    return modes[start:max(start, stop)]
-
-
-def _frequency(mode: Mode) -> float:
-    return mode.frequency_hz
 
 
 # ---------------------------------------------------------------------------------------------
@@ -643,7 +626,7 @@ def tap_test_rows(result: AuditResult) -> list[TapTestRow]:
         modes = pr.modes                  # ascending: the nearest is a neighbour of the peak
         matched_list = []
         for peak in pr.measured_peaks_hz:
-            at = bisect.bisect_left(modes, peak, key=_frequency)
+            at = bisect.bisect_left(modes, peak, key=mode_frequency)
             near = min(modes[max(at - 1, 0):at + 1],
                        key=lambda m: abs(math.log(m.frequency_hz / peak)), default=None)
             if near is None:

@@ -198,7 +198,7 @@ def findings_json(result: AuditResult) -> str:
                             | (orjson.OPT_INDENT_2 if indent else 0)).decode("utf-8")
     except orjson.JSONEncodeError:
         return json.dumps(document, indent=2 if indent else None,
-                          separators=(",", ": ") if indent else (",", ":"),
+                          separators=None if indent else (",", ":"),
                           ensure_ascii=False, allow_nan=False)
 
 

@@ -8,6 +8,8 @@ order; this module decides them once:
 - which modes are listed: a panel may have tens of thousands of modes up to its assessment
   limit (no count cap), so the outputs give its mode count, its ``LOWEST_MODES_LISTED``
   lowest modes and every mode a finding names (``MODES_LISTED`` says so in the document);
+- how a panel's modes are read: they are ascending in frequency, so the fundamental is the
+  first and a frequency window is found by bisection (``fundamental``, ``modes_between``);
 - the assumptions a panel's verdict rests on, in words (a mount taken as rigid, a default
   loss factor, a sheet taken as impervious);
 - numbers JSON can carry: no infinity or NaN (RFC 8259, §6), ``None`` instead.
@@ -15,6 +17,7 @@ order; this module decides them once:
 
 from __future__ import annotations
 
+import bisect
 import math
 from collections.abc import Sequence
 from typing import Any
@@ -22,7 +25,8 @@ from typing import Any
 from auditor.model import AuditResult, Finding, Mode, PanelResult, Remedy, finding_rank
 from auditor.physics.materials import structural_loss_factor
 
-__all__ = ["LOWEST_MODES_LISTED", "MODES_LISTED", "finite", "listed_modes",
+__all__ = ["LOWEST_MODES_LISTED", "MODES_LISTED", "finite", "fundamental", "listed_modes",
+           "mode_frequency", "modes_between",
            "ranked_findings", "windows_text", "PanelAssumptions"]
 
 #: How many of a panel's lowest modes the outputs list (besides those findings name).
@@ -53,6 +57,26 @@ def listed_modes(panel: PanelResult, lowest: int = LOWEST_MODES_LISTED) -> tuple
     for f in panel.findings:
         chosen.setdefault((f.mode.label, f.mode.frequency_hz), f.mode)
     return tuple(sorted(chosen.values(), key=lambda m: m.frequency_hz))
+
+
+def fundamental(modes: Sequence[Mode]) -> Mode | None:
+    """The lowest mode (the one a tap test shows first), or None; ``modes`` ascending in
+    frequency, as ``PanelResult.modes`` are."""
+    return modes[0] if len(modes) else None
+
+
+def modes_between(modes: Sequence[Mode], low_hz: float, high_hz: float) -> Sequence[Mode]:
+    """The modes with ``low_hz`` ≤ f ≤ ``high_hz`` [Hz] of ``modes`` ascending in frequency
+    (as ``PanelResult.modes``), found by bisection: a panel may have tens of thousands of
+    modes, held as arrays (``auditor.physics.modes.ModeList``), and a chart reads a few."""
+    start = bisect.bisect_left(modes, low_hz, key=mode_frequency)
+    stop = bisect.bisect_right(modes, high_hz, key=mode_frequency)
+    return modes[start:max(start, stop)]
+
+
+def mode_frequency(mode: Mode) -> float:
+    """A mode's frequency [Hz] (the key of the bisections over ascending modes)."""
+    return mode.frequency_hz
 
 
 def ranked_findings(panels: Sequence[PanelResult]) -> list[tuple[int, Finding]]:
