@@ -20,58 +20,50 @@ The steps:
 4. **Attribution**: each panel, in schedule order, takes its type's judgement in its tone
    group, with its own id.
 
-Types are independent, so step 3 runs in a process pool (``jobs``): each task is one panel
-type, or the types of one finite-element outline (which share its basis), judged with a
-:class:`auditor.physics.cache.SolveCache` made for the task and dropped after it; the
-results are put back in schedule order in the calling process, which also reports progress.
-The result is the same, bit for bit, for any number of jobs and whatever ran before in the
-process: every cache entry is a pure function of its key, and nothing else is kept between
-calls.
+Step 3 is :class:`auditor.judging.TypeJudges`: types are independent, so it runs them in a
+process pool (``jobs``), each task one panel type or the types of one finite-element outline
+(which share its basis), judged with a :class:`auditor.physics.cache.SolveCache` made for the
+task and dropped after it. :func:`audit` hands the types that no tap test can change to the
+pool first, and fits the tap tests while they are judged. The results are put back in
+schedule order in the calling process, which also reports progress. The result is the same,
+bit for bit, for any number of jobs and whatever ran before in the process: every cache entry
+is a pure function of its key, and nothing else is kept between calls.
 """
 
 from __future__ import annotations
 
 import dataclasses
 import datetime as _dt
-import multiprocessing
-import os
 from collections.abc import Callable, Sequence
-from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
 from dataclasses import dataclass
 from pathlib import Path
-
-import numpy as np
 
 from auditor import __version__
 from auditor.excitation import excitations_for_schedule, mount_of
 from auditor.judgement.response import weyl_mode_count
 from auditor.judgement.screening import ExcitationArrays, assessment_limit_hz, reaching
-from auditor.judgement.verdict import PanelAssessment, assess_panel, panel_area
+from auditor.judgement.verdict import panel_area
+from auditor.judging import Judged, TypeJudges, TypeWork, judge_panel, panel_solver, resolved_jobs
 from auditor.model import (
     AuditResult,
     Equipment,
     Excitation,
     Finding,
-    Mode,
     Panel,
     PanelResult,
-    Remedy,
     RowProblem,
     Schedule,
-    ShapeGrid,
-    finding_rank,
 )
 from auditor.physics.cache import SolveCache
-from auditor.physics.modes import GeometryError, PanelModes, modes_for, physics_signature
-from auditor.remedy import RemedyMemo, panel_remedy
+from auditor.physics.modes import GeometryError, modes_for, physics_signature
 from auditor.rules import RuleSet, load_ruleset
 from auditor.schedule import read_schedule
 
 Progress = Callable[[int, int], None]
 
 __all__ = ["PanelType", "ToneGroup", "audit", "audit_schedule", "judge_panel",
-           "panel_solver", "panel_types", "tone_groups", "resolved_jobs", "unsolvable_problem",
-           "calibration_modes", "equipment_excitations"]
+           "panel_solver", "panel_types", "tone_groups", "type_works", "resolved_jobs",
+           "unsolvable_problem", "calibration_modes", "equipment_excitations"]
 
 #: Modes computed for fitting tap tests: up to this frequency [Hz] and this many (fitting
 #: needs the lowest modes only; the judgement has no count of modes).
@@ -87,16 +79,6 @@ def equipment_excitations(
     pairs, problems = excitations_for_schedule(
         schedule.equipment, ruleset, project_line_frequency=schedule.project.line_frequency)
     return pairs, list(problems)
-
-
-def panel_solver(fmax: float, air_density: float, speed_of_sound: float,
-                 cache: SolveCache) -> Callable[[Panel], PanelModes]:
-    """The full model for one assessment limit: a panel → every one of its modes up to
-    ``fmax`` (no count of modes), sharing the audit's solve cache."""
-    def solve(panel: Panel) -> PanelModes:
-        return modes_for(panel, fmax, max_modes=None, air_density=air_density,
-                         speed_of_sound=speed_of_sound, cache=cache)
-    return solve
 
 
 # ---------------------------------------------------------------------------------------
@@ -211,200 +193,6 @@ def panel_types(panels: Sequence[Panel], groups: Sequence[ToneGroup],
 
 
 # ---------------------------------------------------------------------------------------
-# Judging a type
-# ---------------------------------------------------------------------------------------
-
-@dataclass(frozen=True)
-class _Judged:
-    """What the panels of one type in one tone group share (the solve itself is not kept).
-
-    ``findings`` are ranked worst first and name no panel (each panel's own id is put in
-    when it is attributed)."""
-
-    modes: tuple[Mode, ...]
-    loading: str
-    notes: tuple[str, ...]
-    shapes: tuple[ShapeGrid, ...]
-    assessment: PanelAssessment
-    findings: tuple[Finding, ...]
-    remedy: Remedy | None
-
-
-def judge_panel(panel: Panel, excitations: ExcitationArrays, ruleset: RuleSet,
-                solve: Callable[[Panel], PanelModes], limit_hz: float, *,
-                with_shapes: bool = True, memo: RemedyMemo | None = None) -> _Judged:
-    """Steps 2–4 for one panel (see the module docstring).
-
-    ``solve`` may compute modes above ``limit_hz`` (panels of one type in tone groups with
-    different limits share one solve); only those up to the limit are judged and listed.
-    ``memo`` is shared by the calls for one panel type (see ``auditor.remedy.RemedyMemo``).
-
-    Raises
-    ------
-    ValueError
-        When the physics cannot solve the panel (``GeometryError`` included).
-    """
-    panel_modes = solve(panel)
-    assessment = assess_panel(panel, panel_modes, excitations, ruleset,
-                              limit_hz=limit_hz, complete_to_hz=panel_modes.complete_to_hz)
-    remedy = None
-    if assessment.findings:
-        remedy = panel_remedy(
-            panel, excitations, ruleset, solve, limit_hz=limit_hz, solved=panel_modes,
-            beyond_hz=assessment.assessed_to_hz if assessment.beyond else None, memo=memo)
-    modes = panel_modes.modes
-    count = int(np.searchsorted(panel_modes.frequency_hz, limit_hz, side="right"))
-    listed = modes if count == len(modes) else modes[:count]
-    return _Judged(listed, panel_modes.loading, panel_modes.notes + assessment.notes,
-                   _shapes(panel_modes, assessment.findings) if with_shapes else (),
-                   assessment, tuple(sorted(assessment.findings, key=finding_rank)), remedy)
-
-
-@dataclass(frozen=True)
-class _TypeWork:
-    """One panel type to judge in each of its tone groups (what a worker is sent)."""
-
-    number: int
-    panel: Panel
-    solve_to_hz: float
-    groups: tuple[tuple[int, ExcitationArrays, float], ...]
-
-
-def _judge_type(work: _TypeWork, ruleset: RuleSet, air_density: float,
-                speed_of_sound: float, with_shapes: bool, cache: SolveCache
-                ) -> tuple[int, tuple[tuple[int, _Judged | ValueError], ...]]:
-    solve = panel_solver(work.solve_to_hz, air_density, speed_of_sound, cache)
-    memo = RemedyMemo()
-    out = []
-    for group, excitations, limit in work.groups:
-        try:
-            got: _Judged | ValueError = judge_panel(work.panel, excitations, ruleset, solve,
-                                                    limit, with_shapes=with_shapes, memo=memo)
-        except ValueError as exc:  # GeometryError included: the message says what is wrong
-            got = exc
-        out.append((group, got))
-    return work.number, tuple(out)
-
-
-def _judge_family(family: tuple[_TypeWork, ...], ruleset: RuleSet, air_density: float,
-                  speed_of_sound: float, with_shapes: bool):
-    """One task: panel types that share their geometry (one outline at several tensions and
-    densities, one rectangle's aspect ratio), judged with one solve cache made for them
-    (finite-element bases and air-loading integrals are shared; the cache is dropped after)."""
-    cache = SolveCache()
-    return [_judge_type(work, ruleset, air_density, speed_of_sound, with_shapes, cache)
-            for work in family]
-
-
-def resolved_jobs(jobs: int | None) -> int:
-    """The number of worker processes for ``jobs``: None → every core (``os.cpu_count()``).
-
-    Raises
-    ------
-    ValueError
-        For a number below 1.
-    """
-    if jobs is None:
-        return max(1, os.cpu_count() or 1)
-    if isinstance(jobs, bool) or int(jobs) != jobs or jobs < 1:
-        raise ValueError(f"jobs must be a whole number ≥ 1 or None (every core), got {jobs!r}")
-    return int(jobs)
-
-
-def _geometry(panel: Panel) -> tuple:
-    """What panel types must share to save much in the physics' cache: a finite-element
-    outline (its basis at one tension ratio, and the air's integrals over it, serve every
-    tension and density: a second or more each). Analytic shapes share little beyond a
-    table of a few tens of milliseconds, and are judged apart (the load spreads better)."""
-    if panel.shape == "polygon" or panel.cutouts or (
-            panel.shape == "circle" and panel.tension_x != panel.tension_y):
-        return ("outline", panel.shape, panel.outline, panel.width, panel.length,
-                panel.diameter, panel.cutouts, round(panel.tension_y / panel.tension_x, 9)
-                if panel.tension_x else None)
-    return ("type", physics_signature(panel), panel.max_tension)
-
-
-def _tasks(works: list[_TypeWork], costs: list[float], jobs: int) -> list[tuple]:
-    """The types as tasks, dearest first: the types of one geometry together (see
-    :func:`_geometry`), cheap families gathered in tasks of at least a 64th of a worker's
-    share (so that hundreds of cheap types are not sent one by one); a pool hands each task
-    to the next free worker."""
-    families: dict[tuple, list[int]] = {}
-    for k, work in enumerate(works):
-        families.setdefault(_geometry(work.panel), []).append(k)
-    weight = {key: sum(costs[k] for k in members) for key, members in families.items()}
-    order = sorted(families, key=lambda key: (-weight[key], families[key][0]))
-    least = sum(costs) / (64.0 * jobs)
-    tasks: list[tuple] = []
-    current: list[_TypeWork] = []
-    gathered = 0.0
-    for key in order:
-        current.extend(works[k] for k in families[key])
-        gathered += weight[key]
-        if gathered >= least:
-            tasks.append(tuple(current))
-            current, gathered = [], 0.0
-    if current:
-        tasks.append(tuple(current))
-    return tasks
-
-
-def _pool(jobs: int) -> ProcessPoolExecutor:
-    """A process pool of ``jobs`` workers (each task makes its own solve cache).
-
-    Workers start from a clean server process (``forkserver``, with this module loaded once
-    in it) where the system has one, else from fresh interpreters (``spawn``); never as forks
-    of the caller, which may be running threads (a progress bar) and whose linear-algebra
-    library may have started its own threads (``auditor`` keeps it to one thread only when
-    imported before numpy; a fresh worker always imports it first). Like any use of
-    :mod:`multiprocessing` that starts processes this way, a script that audits at its top
-    level must do it under ``if __name__ == "__main__":``.
-    """
-    methods = multiprocessing.get_all_start_methods()
-    if "forkserver" in methods:
-        context = multiprocessing.get_context("forkserver")
-        context.set_forkserver_preload(["auditor.audit"])
-    else:
-        context = multiprocessing.get_context("spawn")
-    return ProcessPoolExecutor(max_workers=jobs, mp_context=context)
-
-
-#: The least estimated work (in :meth:`PanelType.cost` units, about 0.15 s of one core each
-#: as measured on the demo project) for which worker processes are started: starting them
-#: and warming their caches takes about a second.
-POOL_WORTH = 20.0
-
-
-def _judge_all(types: list[PanelType], groups: list[ToneGroup], ruleset: RuleSet,
-               air_density: float, speed_of_sound: float, with_shapes: bool, jobs: int,
-               progress: Callable[[int], None]) -> dict[int, dict[int, _Judged | ValueError]]:
-    works = [_TypeWork(k, t.panel, t.solve_to_hz,
-                       tuple((g, groups[g].excitations, groups[g].limit_hz) for g in t.groups))
-             for k, t in enumerate(types)]
-    judged: dict[int, dict[int, _Judged | ValueError]] = {}
-
-    def take(results) -> None:
-        for number, outcome in results:
-            judged[number] = dict(outcome)
-            progress(types[number].count)
-
-    costs = [t.cost() for t in types]
-    tasks = _tasks(works, costs, jobs)
-    if jobs <= 1 or len(tasks) <= 1 or sum(costs) < POOL_WORTH:
-        for task in tasks:
-            take(_judge_family(task, ruleset, air_density, speed_of_sound, with_shapes))
-        return judged
-    with _pool(min(jobs, len(tasks))) as pool:
-        pending = {pool.submit(_judge_family, task, ruleset, air_density, speed_of_sound,
-                               with_shapes) for task in tasks}
-        while pending:
-            done, pending = wait(pending, return_when=FIRST_COMPLETED)
-            for future in done:
-                take(future.result())
-    return judged
-
-
-# ---------------------------------------------------------------------------------------
 # The audit
 # ---------------------------------------------------------------------------------------
 
@@ -451,8 +239,32 @@ def audit_schedule(
     ValueError
         For ``jobs`` below 1.
     """
-    workers = resolved_jobs(jobs)
     project = schedule.project
+    with TypeJudges(ruleset, project.air_density, project.speed_of_sound, with_shapes,
+                    jobs) as judges:
+        return _audited(schedule, ruleset, judges, calibrated=calibrated,
+                        measured_peaks=measured_peaks, calibrations=calibrations,
+                        progress=progress, created=created)
+
+
+def type_works(types: Sequence[PanelType], groups: Sequence[ToneGroup]) -> list[TypeWork]:
+    """What the judges are sent for each type: its representative, solve limit, tone groups
+    (number, excitations, limit) and cost, and its identity (the type's key, its solve limit
+    and, for each group, the equipment reaching it and its limit)."""
+    return [TypeWork((t.key, t.solve_to_hz,
+                      tuple((groups[g].reached_by, groups[g].limit_hz) for g in t.groups)),
+                     t.panel, t.solve_to_hz,
+                     tuple((g, groups[g].excitations, groups[g].limit_hz) for g in t.groups),
+                     t.cost())
+            for t in types]
+
+
+def _audited(schedule: Schedule, ruleset: RuleSet, judges: TypeJudges, *,
+             calibrated: Sequence[Panel], measured_peaks: dict[str, tuple[float, ...]] | None,
+             calibrations: Sequence, progress: Progress | None,
+             created: str | None) -> AuditResult:
+    """:func:`audit_schedule` with its types judged by ``judges`` (which may hold some
+    already)."""
     pairs, problems = equipment_excitations(schedule, ruleset)
     problems = list(schedule.problems) + problems
     replaced = {p.panel: p for p in calibrated}
@@ -462,13 +274,15 @@ def audit_schedule(
     total = len(panels)
     done = [0]
 
-    def advance(count: int) -> None:
-        done[0] += count
+    def advance(k: int) -> None:
+        done[0] += types[k].count
         if progress is not None:
             progress(done[0], total)
 
-    judged = _judge_all(types, groups, ruleset, project.air_density, project.speed_of_sound,
-                        with_shapes, workers, advance)
+    works = type_works(types, groups)
+    # by position: a work judged before (same identity) may have numbered its groups otherwise
+    judged = [{g: got for (g, _, _), (_, got) in zip(work.groups, outcome)}
+              for work, outcome in zip(works, judges.judged(works, advance))]
     peaks = measured_peaks or {}
     results: list[PanelResult] = []
     for (scheduled, panel), (kind, group) in zip(zip(schedule.panels, panels), placed):
@@ -491,7 +305,7 @@ def audit_schedule(
     )
 
 
-def _panel_result(panel: Panel, scheduled: Panel, got: _Judged,
+def _panel_result(panel: Panel, scheduled: Panel, got: Judged,
                   peaks: dict[str, tuple[float, ...]]) -> PanelResult:
     assessment = got.assessment
     findings = tuple(_attributed(f, panel.panel) for f in got.findings)
@@ -551,16 +365,6 @@ def _typed(panel: Panel, column: str) -> str:
     return ""
 
 
-def _shapes(panel_modes: PanelModes, findings: tuple[Finding, ...]):
-    wanted: list[int] = [0] if len(panel_modes) else []
-    labels = {label: k for k, label in enumerate(panel_modes.labels)}
-    for f in findings:
-        k = labels.get(f.mode.label)
-        if k is not None and k not in wanted:
-            wanted.append(k)
-    return tuple(panel_modes.shape_grid(k) for k in wanted[:6])
-
-
 def audit(
     paths: Sequence[str | Path],
     *,
@@ -584,21 +388,37 @@ def audit(
     resolved_jobs(jobs)     # a bad value is reported before any work
     schedule = read_schedule([str(p) for p in paths])
     ruleset = load_ruleset(rules)
+    project = schedule.project
     fitted: list[Panel] = []
     peaks: dict[str, tuple[float, ...]] = {}
-    if calibrated:
-        from auditor.calibrate import apply_calibration, calibrate_schedule
+    calibrations: Sequence = ()
+    with TypeJudges(ruleset, project.air_density, project.speed_of_sound, with_shapes,
+                    jobs) as judges:
+        if calibrated:
+            from auditor.calibrate import apply_calibration, calibrate_schedule
 
-        calibrations, cal_problems = calibrate_schedule(
-            schedule, calibration_modes(schedule.project, SolveCache()),
-            allow_outside=recordings_anywhere)
-        by_id = {p.panel: p for p in schedule.panels}
-        for c in calibrations:
-            fitted.append(apply_calibration(by_id[c.panel], c))
-            peaks[c.panel] = tuple(c.peaks_hz)
-        schedule = dataclasses.replace(schedule, problems=schedule.problems + tuple(cal_problems))
-    else:
-        calibrations = ()
-    return audit_schedule(schedule, ruleset, calibrated=fitted, measured_peaks=peaks,
-                          calibrations=calibrations, with_shapes=with_shapes,
-                          progress=progress, jobs=jobs)
+            # The types no tap test can change are judged (in the pool) while the tap tests
+            # are fitted here; the rest are sent once the fitted tensions are known.
+            judges.start(_untapped_works(schedule, ruleset))
+            calibrations, cal_problems = calibrate_schedule(
+                schedule, calibration_modes(project, SolveCache()),
+                allow_outside=recordings_anywhere)
+            by_id = {p.panel: p for p in schedule.panels}
+            for c in calibrations:
+                fitted.append(apply_calibration(by_id[c.panel], c))
+                peaks[c.panel] = tuple(c.peaks_hz)
+            schedule = dataclasses.replace(
+                schedule, problems=schedule.problems + tuple(cal_problems))
+        return _audited(schedule, ruleset, judges, calibrated=fitted, measured_peaks=peaks,
+                        calibrations=calibrations, progress=progress, created=None)
+
+
+def _untapped_works(schedule: Schedule, ruleset: RuleSet) -> list[TypeWork]:
+    """The works of the panel types whose panels name no tap test (calibration cannot
+    change them: it replaces panels by id, and only those that name a recording)."""
+    tapped = {p.panel for p in schedule.panels if p.tap_test and p.tap_test.strip()}
+    pairs, _ = equipment_excitations(schedule, ruleset)
+    groups, zone_group = tone_groups(schedule.panels, pairs, ruleset)
+    types, _ = panel_types([p for p in schedule.panels if p.panel not in tapped], groups,
+                           zone_group, ruleset)
+    return type_works(types, groups)

@@ -418,17 +418,73 @@ def _same_results(a, b):
 
 
 def test_the_result_is_the_same_on_any_number_of_processes(monkeypatch):
-    import auditor.audit as audit_module
+    import auditor.judging as judging
 
     schedule = _mixed_schedule()
     rules = load_ruleset("standard")
     one = audit_schedule(schedule, rules, jobs=1, created="2024-01-01T00:00:00")
     # (this small schedule would be judged in-process: make the pool start all the same)
-    monkeypatch.setattr(audit_module, "POOL_WORTH", 0.0)
+    monkeypatch.setattr(judging, "POOL_WORTH", 0.0)
     two = audit_schedule(schedule, rules, jobs=2, created="2024-01-01T00:00:00")
     assert sum(len(p.findings) for p in one.panels) > 0
     assert any(p.remedy is not None for p in one.panels)
     _same_results(one, two)
+
+
+def _tapped_workbook(folder):
+    """Rectangles in vacuo (Office and Corridor zones), two naming tap tests: C-1 a good
+    recording of itself at 0.85 × its scheduled tension (its type changes when fitted), C-3 an
+    empty file (it keeps its scheduled values, so its type, C-2's, gains the Corridor)."""
+    from openpyxl import Workbook
+    from test_calibrate import PANEL, _true, ideal_membrane, synthesise
+
+    from auditor.calibrate import write_wav
+
+    recording, _, _ = synthesise(ideal_membrane(), _true(), seed=7)
+    (folder / "taps").mkdir()
+    write_wav(folder / "taps" / "c01.wav", recording.samples, recording.sample_rate, bits=24)
+    (folder / "taps" / "c03.wav").write_bytes(b"")
+    wb = Workbook()
+    ws = wb.active
+    ws.title = "Panels"
+    ws.append(["Panel", "Zone", "Width (mm)", "Length (mm)", "Tension (N/m)",
+               "Areal density (g/m²)", "Room side", "Plenum side", "Max tension (N/m)",
+               "Tap test"])
+    size = (1000 * PANEL.width, 1000 * PANEL.length, PANEL.tension_x,
+            1000 * PANEL.areal_density, "none", "none", 1600)
+    ws.append(["C-1", "Office", *size, "taps/c01.wav"])
+    ws.append(["C-2", "Office", *size, None])
+    ws.append(["C-3", "Corridor", *size, "taps/c03.wav"])
+    ws.append(["C-4", "Office", 1200, 900, 500, 250, "none", "none", 1600, None])
+    eq = wb.create_sheet("Equipment")
+    eq.append(["Equipment", "Kind", "Zone", "rpm", "Blades"])
+    eq.append(["AHU-1", "fan", "Office", 1450, 6])
+    eq.append(["TX-1", "transformer", "Corridor", None, None])
+    path = folder / "schedule.xlsx"
+    wb.save(path)
+    return path
+
+
+def test_tap_tests_fitted_while_the_other_types_are_judged_change_nothing(tmp_path,
+                                                                          monkeypatch):
+    # audit() hands the types no tap test can change to the pool before fitting the tap
+    # tests; a type whose tone groups change once the fits are known (C-2's, joined by C-3)
+    # is judged again, and the result is that of judging everything in one process.
+    import auditor.judging as judging
+
+    path = _tapped_workbook(tmp_path)
+    one = audit([path], calibrated=True, jobs=1)
+    monkeypatch.setattr(judging, "POOL_WORTH", 0.0)
+    two = audit([path], calibrated=True, jobs=2)
+    _same_results(one, two)
+    by_id = {p.panel.panel: p for p in two.panels}
+    assert set(by_id) == {"C-1", "C-2", "C-3", "C-4"}
+    assert by_id["C-1"].panel.tension_x == pytest.approx(0.85 * 400.0, rel=0.02)
+    assert by_id["C-3"].panel.tension_x == by_id["C-2"].panel.tension_x == 400.0
+    assert [p.record for p in two.problems if "tap test" in p.message] == ["C-3"]
+    # C-2 and C-3 share a type in different tone groups: the fan reaches the Office only
+    assert any(f.excitation.equipment == "AHU-1" for f in by_id["C-2"].findings)
+    assert all(f.excitation.equipment != "AHU-1" for f in by_id["C-3"].findings)
 
 
 def test_the_result_is_the_same_whatever_ran_before_and_in_any_row_order():
