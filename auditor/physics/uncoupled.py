@@ -58,12 +58,12 @@ from scipy import special
 from auditor.physics.added_mass import (
     angular_weight,
     bessel_transform,
-    hankel_rule,
+    gauss_panels,
     rectangle_self_table,
 )
 from auditor.physics.basis import DiscShapes, ModalBasis, PolygonRegion, RectangleShapes
 from auditor.physics.basis_reach import REACH_MASS_MARGIN
-from auditor.physics.bessel import bessel_zeros
+from auditor.physics.bessel import bessel_j_orders, bessel_zeros
 from auditor.physics.cache import SolveCache, shared_size
 from auditor.physics.loading_inputs import AIR_DENSITY, SPEED_OF_SOUND
 from auditor.physics.quadrature import quadrature_family
@@ -171,21 +171,44 @@ def self_added_mass(basis: ModalBasis, indices, cache: SolveCache | None = None
     return area / mode_wavenumbers(basis, indices, cache), False
 
 
+#: Gauss points per π of the rule for a disc's self terms (the integrand's period): within
+#: 1e-9 of ten per π/2, where the range's truncation leaves about 1e-6 (measured against a
+#: range and a rule ten times longer and finer).
+_SELF_RULE = 8
+
+
 @lru_cache(maxsize=1024)
 def _disc_self(order: int, count: int) -> np.ndarray:
     """∫₀^∞ h_p(x)² dx for the first ``count`` zeros of J_m (the diagonal of
     ``added_mass._disc_order_table``)."""
     zeros = bessel_zeros(order, count)
-    # Eight Gauss points per π (the integrand's period): within 1e-9 of ten per π/2, where
-    # the range's truncation leaves about 1e-6 (measured against a range and a rule ten
-    # times longer and finer).
-    x, w = hankel_rule(240.0 + 2.0 * float(zeros[-1]), 8, np.pi)
+    panels = int(math.ceil((240.0 + 2.0 * float(zeros[-1])) / np.pi))
+    block = order // _ORDER_BLOCK
+    x, w, table = _self_rule(block, 1 << (panels - 1).bit_length())
+    used = _SELF_RULE * panels          # the rule over [0, panels·π] is a prefix of the table's
+    x, w = x[:used], w[:used]
     tail_start = x[-1] + (x[-1] - x[-2])
-    h = bessel_transform(order, zeros, x)
+    h = bessel_transform(order, zeros, x, table[order - block * _ORDER_BLOCK, :used])
     c = zeros * special.jv(order + 1.0, zeros)
     diagonal = (h * h) @ w + c * c / (4.0 * np.pi * tail_start**4)
     diagonal.setflags(write=False)   # memoised (a pure function of two whole numbers)
     return diagonal
+
+
+#: Orders whose J_m at the self terms' nodes are made together (by recurrence).
+_ORDER_BLOCK = 32
+
+
+@lru_cache(maxsize=8)
+def _self_rule(block: int, panels: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """The self terms' rule over ``panels`` panels of π, and J_m at its nodes for the orders
+    of ``block`` (``_ORDER_BLOCK`` of them, from ``block · _ORDER_BLOCK``), each value a
+    function of its order and node alone."""
+    x, w = gauss_panels(panels, _SELF_RULE, np.pi)
+    table = bessel_j_orders(block * _ORDER_BLOCK, _ORDER_BLOCK, x)
+    for array in (x, w, table):
+        array.setflags(write=False)
+    return x, w, table
 
 
 def uncoupled_loaded_modes(
