@@ -69,7 +69,8 @@ class Judged:
 def judge_panel(panel: Panel, excitations: ExcitationArrays, ruleset: RuleSet,
                 solve: Callable[[Panel], PanelModes], limit_hz: float, *,
                 with_shapes: bool = True, memo: RemedyMemo | None = None) -> Judged:
-    """Steps 2–4 for one panel (see the module docstring).
+    """One panel (a type's representative) judged in one tone group: solved, assessed
+    and, when it has findings, given its remedy (steps 2–4 of ``auditor.audit``).
 
     ``solve`` may compute modes above ``limit_hz`` (panels of one type in tone groups with
     different limits share one solve); only those up to the limit are judged and listed.
@@ -92,8 +93,8 @@ def judge_panel(panel: Panel, excitations: ExcitationArrays, ruleset: RuleSet,
     count = int(np.searchsorted(panel_modes.frequency_hz, limit_hz, side="right"))
     listed = modes if count == len(modes) else modes[:count]
     return Judged(listed, panel_modes.loading, panel_modes.notes + assessment.notes,
-                   _shapes(panel_modes, assessment.findings) if with_shapes else (),
-                   assessment, tuple(sorted(assessment.findings, key=finding_rank)), remedy)
+                  _shapes(panel_modes, assessment.findings) if with_shapes else (),
+                  assessment, tuple(sorted(assessment.findings, key=finding_rank)), remedy)
 
 
 @dataclass(frozen=True)
@@ -228,7 +229,7 @@ class TypeJudges:
     work is worth starting them (``POOL_WORTH``), else in the calling process.
 
     Use it as a context manager: a pool it started is shut down on leaving (works handed in
-    and never asked for are dropped)::
+    and never asked for are cancelled, or waited for when already running)::
 
         with TypeJudges(ruleset, 1.204, 343.0, with_shapes=True, jobs=2) as judges:
             judges.start(early)            # judged in the pool while the caller goes on
