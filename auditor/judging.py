@@ -332,6 +332,8 @@ class TypeJudges:
 
 
 def _shapes(panel_modes: PanelModes, findings: tuple[Finding, ...]):
+    """Sampled shapes (for the PDF) of the fundamental and the modes named in findings, at
+    most six."""
     wanted: list[int] = [0] if len(panel_modes) else []
     labels = {label: k for k, label in enumerate(panel_modes.labels)}
     for f in findings:
