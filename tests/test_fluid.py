@@ -407,6 +407,38 @@ def test_porous_operator_solved_through_its_schur_complement_matches_the_whole_s
         assert np.max(np.abs(np.concatenate([yq[k], yu[k]]) - z)) <= 1e-9 * scale
 
 
+def test_porous_roots_match_the_quadratic_pencil_solved_whole():
+    # porous._porous_roots solves a reduced first-order form (3n + J); scipy.linalg.eig of
+    # the whole quadratic's companion pencil [[0, I], [−K, −C]] y = s [[I, 0], [0, M]] y
+    # (a general-purpose reference library, 4n) must give the same nonzero roots and, for
+    # each, the same vector z = (q, u) up to scale.
+    from scipy import linalg
+
+    from auditor.physics import porous
+    from auditor.physics.coupled import assemble_system
+
+    basis = _rectangle(400.0, 0.2, 1.2, 0.9)(300.0)
+    system = assemble_system(basis, 0.2, 1, 0.08, 900.0, 1.21, 343.0, 0.05, SolveCache())
+    for block in system.family.blocks():
+        omega, z = porous._porous_roots(system, block, 0.0)
+        stiffness, mass, damping = porous._porous_operator(system, block, 0.0)
+        size = len(stiffness)
+        eye, zero = np.eye(size), np.zeros((size, size))
+        s, y = linalg.eig(np.block([[zero, eye], [-stiffness, -damping]]),
+                          np.block([[eye, zero], [zero, mass]]))
+        reference, vectors = -1j * s, y[:size]
+        keep = np.isfinite(reference) & (np.abs(reference) > 1e-6)
+        reference, vectors = reference[keep], vectors[:, keep]
+        mine = np.abs(omega) > 1e-6
+        omega, z = omega[mine], z[:, mine]
+        assert len(omega) == len(reference)
+        for k in range(len(omega)):
+            nearest = np.argmin(np.abs(reference - omega[k]))
+            assert abs(reference[nearest] - omega[k]) <= 1e-9 * abs(omega[k])
+            a, b = z[:, k], vectors[:, nearest]
+            assert abs(np.vdot(a, b)) >= (1 - 1e-8) * np.linalg.norm(a) * np.linalg.norm(b)
+
+
 def test_square_polygon_matches_the_rectangle_with_porous_sheet_and_sealed_cavity():
     # The same 1.2 m × 0.9 m panel by finite elements (40 modes, cavity modes by finite
     # elements) and by the analytic rectangle path (sine modes, cosine cavity modes; Morse &

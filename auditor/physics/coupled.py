@@ -133,6 +133,21 @@ class ModalSystem:
         L = cavity.coupling
         return (L * s) @ L.T, (L * mu) @ L.T
 
+    def cavity_springs(self, frequency_hz: float, index):
+        """The cavity at one frequency [Hz] with its stiffness kept as springs on its modes,
+        ``K_cav = L diag(s) Lᵀ``: the couplings L (n, J) [-] of the cavity modes that act as
+        springs (at zero frequency, the uniform mode alone), their stiffnesses s (J,) [N/m],
+        and the mass the others add (n, n) [kg]."""
+        n = len(index)
+        if self.cavity is None:
+            return np.zeros((n, 0)), np.zeros(0), np.zeros((n, n))
+        cavity = self._cavity_of(index)
+        k0 = 2 * np.pi * frequency_hz / self.speed_of_sound
+        s, mu = cavity_split(cavity, k0, self.air_density, self.speed_of_sound)
+        L = cavity.coupling
+        springs = s > 0
+        return L[:, springs], s[springs], (L * mu) @ L.T
+
 
 def assemble_system(basis: ModalBasis, areal_density: float, air_sides: int,
                     cavity_depth: float | None, airflow_resistance: float | None,

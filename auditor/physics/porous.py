@@ -53,27 +53,44 @@ def _porous_operator(system: ModalSystem, block, frequency: float):
 
 
 def _porous_roots(system: ModalSystem, block, frequency: float):
-    """All roots ω of the porous panel's quadratic eigenproblem with the air's matrices at
-    ``frequency`` (companion linearisation), and their vectors z = (q, u)."""
-    stiffness, mass, damping = _porous_operator(system, block, frequency)
-    size = stiffness.shape[0]
-    half = size // 2
-    # (s² M + s C + K) z = 0 with s = iω: [[0, I], [−M⁻¹K, −M⁻¹C]] w = s w. M is block
-    # diagonal (the panel's ρs A I and the air's positive definite mass), so M⁻¹ costs two
-    # small factorisations and the standard eigenproblem replaces the generalised one of
-    # twice its size's pencil (about three times faster).
-    inverse = np.zeros((size, size))
-    inverse[:half, :half] = np.eye(half) / system.structural_mass
-    inverse[half:, half:] = linalg.cho_solve(linalg.cho_factor(mass[half:, half:].real),
-                                             np.eye(half))
-    operator = np.zeros((2 * size, 2 * size), dtype=complex)
-    operator[:size, size:] = np.eye(size)
-    operator[size:, :size] = -inverse @ stiffness
-    operator[size:, size:] = -inverse @ damping
+    """Every nonzero root ω of the porous panel's quadratic eigenproblem with the air's
+    matrices at ``frequency`` [Hz], and their vectors z = (q, u).
+
+    With s = iω, the panel ``s² ρsA q + s r (q − u) + K_p q = 0`` (K_p diagonal) and the
+    air ``s² M_a u + s r (u − q) + L S Lᵀ u = 0``, the cavity's stiffness held by the few
+    modes that act as springs (``ModalSystem.cavity_springs``: at zero frequency the
+    uniform mode alone). Divided by s, the air's equation is of first order in u with one
+    coordinate ``w = S Lᵀ u / s`` per spring, so the state (q, v = s q, u, w) makes a standard
+    eigenproblem of size 3n + J instead of the companion form's 4n (its four blocks on a
+    240-mode rectangle: 0.16 s → 0.12 s, one thread): it drops only the n − J roots at
+    ω = 0 of the air's rigid motion, which are no panel mode.
+    ``s u = M_a⁻¹(r (q − u) − L w)`` and ``s v = (r (s u) − r v − K_p q)/ρsA``.
+    """
+    n = len(block)
+    springs, stiffness, cavity_mass = system.cavity_springs(frequency, block)
+    j = len(stiffness)
+    r, m = system.resistance, system.structural_mass
+    panel = np.diag(system.stiffness)[block] * (1 + 1j * system.eta_structure)
+    factor = linalg.cho_factor(system.air_mass[np.ix_(block, block)] + cavity_mass)
+    inverse = linalg.cho_solve(factor, np.eye(n))                            # M_a⁻¹
+    through = linalg.cho_solve(factor, springs)                              # M_a⁻¹ L
+    q, v, u, w = (slice(0, n), slice(n, 2 * n), slice(2 * n, 3 * n),
+                  slice(3 * n, 3 * n + j))
+    operator = np.zeros((3 * n + j, 3 * n + j), dtype=complex)
+    operator[q, v] = np.eye(n)
+    operator[u, q] = r * inverse                                             # s u
+    operator[u, u] = -r * inverse
+    operator[u, w] = -through
+    operator[v, q] = (r * operator[u, q] - np.diag(panel)) / m               # s v
+    operator[v, v] = -(r / m) * np.eye(n)
+    operator[v, u] = (r / m) * operator[u, u]
+    operator[v, w] = (r / m) * operator[u, w]
+    operator[w, u] = stiffness[:, None] * springs.T                          # s w
     with np.errstate(all="ignore"):
-        s, w = linalg.eig(operator, check_finite=False)
+        s, vectors = linalg.eig(operator, check_finite=False)
     finite = np.isfinite(s)
-    return -1j * s[finite], w[:size, finite]
+    z = np.concatenate([vectors[q], vectors[u]])
+    return -1j * s[finite], z[:, finite]
 
 
 class _Block:
