@@ -37,7 +37,7 @@ from auditor.model import (
     PanelResult,
     Project,
 )
-from auditor.report.records import fundamental, mode_frequency
+from auditor.report.records import fundamental, mode_frequency, modes_between
 from auditor.report.text import format_hz
 
 __all__ = [
@@ -453,7 +453,9 @@ def tuning_modes(pr: PanelResult, excitations: Sequence[Excitation], ruleset: An
     threshold = float(getattr(ruleset, "participation_threshold", 0.01))
     scale_low, scale_high = math.sqrt(low / t0), math.sqrt(high / t0)
     crossing = []
-    for m in modes:
+    top = max((e.high_hz for e in excitations), default=0.0) * (1 + margin)
+    # only modes that reach the top tone's window at the lowest tension can cross one
+    for m in modes_between(modes, 0.0, top / scale_low * (1 + 1e-9)):
         if m.participation < threshold:
             continue
         f_low, f_high = m.frequency_hz * scale_low, m.frequency_hz * scale_high
@@ -461,7 +463,7 @@ def tuning_modes(pr: PanelResult, excitations: Sequence[Excitation], ruleset: An
             if f_high >= e.low_hz * (1 - margin) and f_low <= e.high_hz * (1 + margin):
                 crossing.append(m)
                 break
-        if f_low > max((e.high_hz for e in excitations), default=0.0) * (1 + margin):
+        if f_low > top:
             break
     for m in sorted(crossing, key=lambda m: -m.participation):
         if len(chosen) >= limit:
