@@ -43,7 +43,15 @@ from auditor.excitation import excitations_for_schedule, mount_of
 from auditor.judgement.response import weyl_mode_count
 from auditor.judgement.screening import ExcitationArrays, assessment_limit_hz, reaching
 from auditor.judgement.verdict import panel_area
-from auditor.judging import Judged, TypeJudges, TypeWork, judge_panel, panel_solver, resolved_jobs
+from auditor.judging import (
+    Judged,
+    TypeJudges,
+    TypeWork,
+    judge_panel,
+    panel_solver,
+    resolved_jobs,
+    start_worker_server,
+)
 from auditor.model import (
     AuditResult,
     Equipment,
@@ -385,7 +393,7 @@ def audit(
     >>> result = audit(["project.xlsx"], rules="standard")     # doctest: +SKIP
     >>> result.summary()["conflicts"]                          # doctest: +SKIP
     """
-    resolved_jobs(jobs)     # a bad value is reported before any work
+    start_worker_server(jobs)   # a bad value is reported before any work
     schedule = read_schedule([str(p) for p in paths])
     ruleset = load_ruleset(rules)
     project = schedule.project

@@ -37,7 +37,7 @@ from auditor.remedy import RemedyMemo, panel_remedy
 from auditor.rules import RuleSet
 
 __all__ = ["Judged", "TypeJudges", "TypeWork", "POOL_WORTH", "judge_panel", "panel_solver",
-           "resolved_jobs"]
+           "resolved_jobs", "start_worker_server"]
 
 
 def panel_solver(fmax: float, air_density: float, speed_of_sound: float,
@@ -198,6 +198,16 @@ def _tasks(works: Sequence[TypeWork], jobs: int) -> list[tuple[TypeWork, ...]]:
     return tasks
 
 
+def _context():
+    """Where workers start: a clean server process (``forkserver``, with this module loaded
+    once in it) where the system has one, else fresh interpreters (``spawn``)."""
+    if "forkserver" in multiprocessing.get_all_start_methods():
+        context = multiprocessing.get_context("forkserver")
+        context.set_forkserver_preload(["auditor.judging"])
+        return context
+    return multiprocessing.get_context("spawn")
+
+
 def _pool(jobs: int) -> ProcessPoolExecutor:
     """A process pool of ``jobs`` workers (each task makes its own solve cache).
 
@@ -209,13 +219,21 @@ def _pool(jobs: int) -> ProcessPoolExecutor:
     :mod:`multiprocessing` that starts processes this way, a script that audits at its top
     level must do it under ``if __name__ == "__main__":``.
     """
-    methods = multiprocessing.get_all_start_methods()
-    if "forkserver" in methods:
-        context = multiprocessing.get_context("forkserver")
-        context.set_forkserver_preload(["auditor.judging"])
-    else:
-        context = multiprocessing.get_context("spawn")
-    return ProcessPoolExecutor(max_workers=jobs, mp_context=context)
+    return ProcessPoolExecutor(max_workers=jobs, mp_context=_context())
+
+
+def start_worker_server(jobs: int | None) -> None:
+    """Start the server that worker processes are forked from, without waiting for it, when
+    ``jobs`` allows more than one process and the system has one (``forkserver``).
+
+    Its start (an interpreter loading this module, about half a second) then overlaps with
+    what the caller does next (reading the schedule); the pool, if one is started, forks its
+    workers from it. Once running, the server serves every later pool of the process.
+    """
+    if resolved_jobs(jobs) > 1 and _context().get_start_method() == "forkserver":
+        from multiprocessing import forkserver
+
+        forkserver.ensure_running()
 
 
 #: The least estimated work (in :meth:`PanelType.cost` units, about 0.15 s of one core each

@@ -505,6 +505,9 @@ def test_jobs_must_be_a_whole_number_of_processes():
     for bad in (0, -1, 1.5, True):
         with pytest.raises(ValueError, match="jobs"):
             audit_schedule(schedule, load_ruleset("standard"), jobs=bad)
+        # audit() says so before it reads anything (the schedule named here does not exist)
+        with pytest.raises(ValueError, match="jobs"):
+            audit(["no-such-schedule.xlsx"], jobs=bad)
 
 
 def test_a_panels_modes_read_as_records_and_travel_as_arrays():
