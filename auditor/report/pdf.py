@@ -440,7 +440,9 @@ class ReportBuilder:
         story += pdf_front.cover(self)
         story += [NextPageTemplate("body"), PageBreak()]
         story += pdf_front.summary(self)
-        story += [PageBreak()]
+        # the equipment follows the summary on its page when a table's start fits there (a
+        # summary that spills a few lines over must not leave the rest of a page blank)
+        story += [CondPageBreak(200)]
         story += pdf_sections.equipment_section(self)
         story += [CondPageBreak(150)]
         story += pdf_sections.status_section(self)
