@@ -175,6 +175,8 @@ def self_added_mass(basis: ModalBasis, indices, cache: SolveCache | None = None
 #: 1e-9 of ten per π/2, where the range's truncation leaves about 1e-6 (measured against a
 #: range and a rule ten times longer and finer).
 _SELF_RULE = 8
+#: Orders whose J_m at the self terms' nodes are made together (by recurrence).
+_ORDER_BLOCK = 32
 
 
 @lru_cache(maxsize=1024)
@@ -193,10 +195,6 @@ def _disc_self(order: int, count: int) -> np.ndarray:
     diagonal = (h * h) @ w + c * c / (4.0 * np.pi * tail_start**4)
     diagonal.setflags(write=False)   # memoised (a pure function of two whole numbers)
     return diagonal
-
-
-#: Orders whose J_m at the self terms' nodes are made together (by recurrence).
-_ORDER_BLOCK = 32
 
 
 @lru_cache(maxsize=8)
