@@ -229,6 +229,11 @@ def start_worker_server(jobs: int | None) -> None:
     Its start (an interpreter loading this module, about half a second) then overlaps with
     what the caller does next (reading the schedule); the pool, if one is started, forks its
     workers from it. Once running, the server serves every later pool of the process.
+
+    Raises
+    ------
+    ValueError
+        For ``jobs`` below 1 (see :func:`resolved_jobs`), before anything is started.
     """
     if resolved_jobs(jobs) > 1 and _context().get_start_method() == "forkserver":
         from multiprocessing import forkserver
