@@ -420,7 +420,7 @@ def test_porous_roots_match_the_quadratic_pencil_solved_whole():
     basis = _rectangle(400.0, 0.2, 1.2, 0.9)(300.0)
     system = assemble_system(basis, 0.2, 1, 0.08, 900.0, 1.21, 343.0, 0.05, SolveCache())
     for block in system.family.blocks():
-        omega, z = porous._porous_roots(system, block, 0.0)
+        omega, z = porous._porous_roots(porous._Block(system, block), 0.0)
         stiffness, mass, damping = porous._porous_operator(system, block, 0.0)
         size = len(stiffness)
         eye, zero = np.eye(size), np.zeros((size, size))

@@ -52,9 +52,10 @@ def _porous_operator(system: ModalSystem, block, frequency: float):
     return stiffness, mass, damping
 
 
-def _porous_roots(system: ModalSystem, block, frequency: float):
-    """Every nonzero root ω of the porous panel's quadratic eigenproblem with the air's
-    matrices at ``frequency`` [Hz], and their vectors z = (q, u).
+def _porous_roots(part: _Block, frequency: float):
+    """Every nonzero root ω of one block's quadratic eigenproblem (``part``, a porous panel's
+    symmetry block) with the air's matrices at ``frequency`` [Hz], and their vectors
+    z = (q, u).
 
     With s = iω, the panel ``s² ρsA q + s r (q − u) + K_p q = 0`` (K_p diagonal) and the
     air ``s² M_a u + s r (u − q) + L S Lᵀ u = 0``, the cavity's stiffness held by the few
@@ -66,12 +67,11 @@ def _porous_roots(system: ModalSystem, block, frequency: float):
     ω = 0 of the air's rigid motion, which are no panel mode.
     ``s u = M_a⁻¹(r (q − u) − L w)`` and ``s v = (r (s u) − r v − K_p q)/ρsA``.
     """
-    n = len(block)
-    springs, stiffness, cavity_mass = system.cavity_springs(frequency, block)
+    n = len(part.block)
+    springs, stiffness, cavity_mass = part.system.cavity_springs(frequency, part.block)
     j = len(stiffness)
-    r, m = system.resistance, system.structural_mass
-    panel = np.diag(system.stiffness)[block] * (1 + 1j * system.eta_structure)
-    factor = linalg.cho_factor(system.air_mass[np.ix_(block, block)] + cavity_mass)
+    r, m = part.r, part.panel_mass
+    factor = linalg.cho_factor(part.air_mass + cavity_mass)
     inverse = linalg.cho_solve(factor, np.eye(n))                            # M_a⁻¹
     through = linalg.cho_solve(factor, springs)                              # M_a⁻¹ L
     q, v, u, w = (slice(0, n), slice(n, 2 * n), slice(2 * n, 3 * n),
@@ -81,7 +81,7 @@ def _porous_roots(system: ModalSystem, block, frequency: float):
     operator[u, q] = r * inverse                                             # s u
     operator[u, u] = -r * inverse
     operator[u, w] = -through
-    operator[v, q] = (r * operator[u, q] - np.diag(panel)) / m               # s v
+    operator[v, q] = (r * operator[u, q] - np.diag(part.panel_stiffness)) / m  # s v
     operator[v, v] = -(r / m) * np.eye(n)
     operator[v, u] = (r / m) * operator[u, u]
     operator[v, w] = (r / m) * operator[u, w]
@@ -203,17 +203,18 @@ def porous_modes(system: ModalSystem, blocks, f_reach: float, count: int) -> lis
     frequency.
     """
     n = system.stiffness.shape[0]
-    found = []        # (ω at zero frequency, block, z) of every panel root in reach
-    for block in blocks:
-        size = len(block)
-        omega, z = _porous_roots(system, block, 0.0)
+    parts = [_Block(system, block) for block in blocks]
+    found = []        # (ω at zero frequency, block's part, z) of every panel root in reach
+    for part in parts:
+        size = len(part.block)
+        omega, z = _porous_roots(part, 0.0)
         q, u = z[:size], z[size:]
         panel = np.linalg.norm(q, axis=0)
         other = np.minimum(np.linalg.norm(u, axis=0), np.linalg.norm(u - q, axis=0))
         lam = omega**2
         keep = np.flatnonzero((omega.real > 0) & (panel > other) & (lam.real > 0)
                               & (omega.real <= 2 * np.pi * f_reach * 1.05))
-        found += [(complex(omega[i]), block, z[:, i]) for i in keep]
+        found += [(complex(omega[i]), part, z[:, i]) for i in keep]
     # the lowest ``count`` over all blocks (the caller's count has its own margin)
     found.sort(key=lambda item: item[0].real)
     found = found[:count]
@@ -221,13 +222,12 @@ def porous_modes(system: ModalSystem, blocks, f_reach: float, count: int) -> lis
     system.series_reach_hz = 1.25 * max((item[0].real for item in found), default=0.0) \
         / (2 * np.pi)
     followed: list[FollowedMode | None] = [None] * len(found)
-    for block in blocks:
-        mine = [j for j, item in enumerate(found) if item[1] is block]
+    for part in parts:
+        mine = [j for j, item in enumerate(found) if item[1] is part]
         if not mine:
             continue
-        size = len(block)
+        block, size = part.block, len(part.block)
         vectors = np.column_stack([found[j][2] / np.linalg.norm(found[j][2]) for j in mine])
-        part = _Block(system, block)
         vectors, roots = _refine_porous(part, vectors, np.array([found[j][0] for j in mine]))
         # Unit panel norm, dominant panel coordinate real and positive.
         q = vectors[:size]

@@ -110,7 +110,6 @@ def excitations_reaching(result: AuditResult, panel: Panel) -> tuple[Excitation,
     return reaching(panel, pairs, result.ruleset)
 
 
-
 # ---------------------------------------------------------------------------------------------
 # One line each: what is wrong, what to do
 # ---------------------------------------------------------------------------------------------
