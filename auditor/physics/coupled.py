@@ -94,6 +94,18 @@ class ModalSystem:
                 self.cavity.wavenumbers[coupled], rows[:, coupled], self.cavity.depth)
         return sub
 
+    _air_bases: dict = field(default_factory=dict, repr=False)
+
+    def air_basis(self, index) -> tuple[np.ndarray, np.ndarray]:
+        """The open sides' air mass of the modes ``index`` as ``V diag(d) Vᵀ``: its
+        eigenvalues d (n,) [kg] and orthonormal eigenvectors V (n, n), kept by block."""
+        key = np.asarray(index).tobytes()
+        pair = self._air_bases.get(key)
+        if pair is None:
+            pair = self._air_bases[key] = linalg.eigh(self.air_mass[np.ix_(index, index)],
+                                                      check_finite=False)
+        return pair
+
     #: Up to which frequency [Hz] the cavity's matrices are wanted often (the modes being
     #: followed): set by the solver; within it they come from :class:`CavitySeries`.
     series_reach_hz: float = 0.0
@@ -301,17 +313,31 @@ class FollowedMode:
     kinetic_mass: float       # xᴴ Re(M_total) x / xᴴx, for the radiation loss factor  [kg]
 
 
-def _matrices_stack(system: ModalSystem, frequencies: np.ndarray, block):
+def _matrices_stack(system: ModalSystem, frequencies: np.ndarray, block, *,
+                    with_transfer: bool = True):
     """Stiffness, mass and transfer of one block at several frequencies [Hz] (incompressible
-    air), stacked (F, n, n); transfer is None for an impervious panel.
+    air), stacked (F, n, n); transfer is None for an impervious panel (and when not
+    ``with_transfer``).
 
     A porous sheet: the air on both sides (and the cavity) in series with the sheet's flow
     resistance, ``Z = iω M_air + K_cav/(iω)``, ``Z_eff = rA Z (rA I + Z)⁻¹``; the panel
     feels ``Z_eff/(iω)`` as mass, and the air moves with ``transfer`` times the panel.
+    Without a cavity both are functions of the air's mass alone: in its eigenvectors,
+    ``M_air = V diag(d) Vᵀ``, the mass is ``ρs A I + V diag(rA d/(rA + iωd)) Vᵀ`` and the
+    transfer ``V diag(rA/(rA + iωd)) Vᵀ`` (no solve at each frequency).
     """
     omega = 2 * np.pi * np.maximum(np.asarray(frequencies, float), 1e-9)[:, None, None]
     eye = np.eye(len(block))
     k_s = system.stiffness[np.ix_(block, block)] * (1 + 1j * system.eta_structure)
+    if system.resistance is not None and system.cavity is None:
+        d, v = system.air_basis(block)
+        ra = system.resistance
+        with np.errstate(all="ignore"):
+            through = ra / (ra + 1j * omega[:, 0, :] * d[None, :])            # (F, n)
+        through = np.where(np.isfinite(through), through, 0.0)
+        mass = system.structural_mass * eye[None] + (v[None] * (d * through)[:, None, :]) @ v.T
+        transfer = (v[None] * through[:, None, :]) @ v.T if with_transfer else None
+        return np.broadcast_to(k_s, mass.shape), mass, transfer
     k_cav, m_cav = system.cavity_stack(frequencies, block)
     air = system.air_mass[np.ix_(block, block)][None] + m_cav
     if system.resistance is None:
@@ -377,7 +403,8 @@ def follow_modes(system: ModalSystem, blocks, vectors: np.ndarray, frequencies: 
         for _ in range(iterations):
             if len(active) == 0:
                 break
-            stiffness, mass, _ = _matrices_stack(system, f[active], block)
+            stiffness, mass, _ = _matrices_stack(system, f[active], block,
+                                                 with_transfer=False)
             xa = x[active]
             y = solve_stack(stiffness - lam[active, None, None] * mass,
                             (mass @ xa[:, :, None]))[:, :, 0]
