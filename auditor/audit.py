@@ -18,7 +18,8 @@ The steps:
    (``auditor.judgement.verdict``) and, for a type with findings, its one remedy
    (``auditor.remedy.panel_remedy``), verified on the full model.
 4. **Attribution**: each panel, in schedule order, takes its type's judgement in its tone
-   group, with its own id.
+   group (modes, findings and remedy shared, not copied: a finding names no panel, its
+   ``PanelResult`` does).
 
 Step 3 is :class:`auditor.judging.TypeJudges`: types are independent, so it runs them in a
 process pool (``jobs``), each task one panel type or the types of one finite-element outline
@@ -56,7 +57,6 @@ from auditor.model import (
     AuditResult,
     Equipment,
     Excitation,
-    Finding,
     Panel,
     PanelResult,
     RowProblem,
@@ -316,25 +316,15 @@ def _audited(schedule: Schedule, ruleset: RuleSet, judges: TypeJudges, *,
 def _panel_result(panel: Panel, scheduled: Panel, got: Judged,
                   peaks: dict[str, tuple[float, ...]]) -> PanelResult:
     assessment = got.assessment
-    findings = tuple(_attributed(f, panel.panel) for f in got.findings)
     notes = got.notes + (("Tension fitted to the site tap test.",)
                          if panel is not scheduled else ())
     return PanelResult(
-        panel=panel, modes=got.modes, findings=findings, loading=got.loading, notes=notes,
+        panel=panel, modes=got.modes, findings=got.findings, loading=got.loading, notes=notes,
         shapes=got.shapes, measured_peaks_hz=tuple(peaks.get(panel.panel, ())),
         assessed_to_hz=assessment.assessed_to_hz, verdict=assessment.verdict,  # type: ignore[arg-type]
         verdict_reason=assessment.reason, overlap_from_hz=assessment.overlap_from_hz,
         beyond=assessment.beyond, remedy=got.remedy,
     )
-
-
-def _attributed(finding: Finding, panel_id: str) -> Finding:
-    """A finding of a panel type, named for one of its panels."""
-    return Finding(panel=panel_id, mode=finding.mode, excitation=finding.excitation,
-                   separation=finding.separation, severity=finding.severity,
-                   margin=finding.margin, remedy=finding.remedy,
-                   response_db=finding.response_db, amplification=finding.amplification,
-                   transmissibility=finding.transmissibility, overlap=finding.overlap)
 
 
 def unsolvable_problem(panel: Panel, error: ValueError) -> RowProblem:

@@ -54,8 +54,8 @@ def panel_solver(fmax: float, air_density: float, speed_of_sound: float,
 class Judged:
     """What the panels of one type in one tone group share (the solve itself is not kept).
 
-    ``findings`` are ranked worst first and name no panel (each panel's own id is put in
-    when it is attributed)."""
+    ``findings`` are ranked worst first and name no panel (every panel of the type in the
+    group holds the same tuple in its ``PanelResult``)."""
 
     modes: tuple[Mode, ...]
     loading: str

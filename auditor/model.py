@@ -445,6 +445,9 @@ class Remedy:
 class Finding:
     """A (mode, excitation) pair that matters to the rule set.
 
+    A finding belongs to the :class:`PanelResult` that holds it and names no panel: the
+    panels of one type in one tone group share one judgement, and so one tuple of findings.
+
     ``separation`` is signed: (mode − excitation) / excitation for a line; for a band, the
     distance to its nearest edge over that edge, 0 inside the band. ``margin`` is the
     (widened) margin the pair was judged by.
@@ -462,7 +465,6 @@ class Finding:
     (``PanelResult.remedy``).
     """
 
-    panel: str
     mode: Mode
     excitation: Excitation
     separation: float

@@ -185,7 +185,7 @@ def _findings(panel: str, modes: list[Mode], lines: list[Excitation], rules: Rul
                 continue
             severity = "conflict" if abs(sep) <= rules.conflict_margin and \
                 response >= rules.conflict_db else "caution"
-            out.append(Finding(panel, mode, e, sep, severity, rules.conflict_margin
+            out.append(Finding(mode, e, sep, severity, rules.conflict_margin
                                if severity == "conflict" else rules.caution_margin,
                                response_db=response, amplification=amplification,
                                transmissibility=e.transmissibility))
@@ -427,7 +427,7 @@ def renamed(result: AuditResult, panel_id: str, *, zone: str | None = None,
 
     panel = dataclasses.replace(old.panel, panel=panel_id,
                                 zone=old.panel.zone if zone is None else zone)
-    findings = tuple(dataclasses.replace(f, panel=panel_id, excitation=excitation(f.excitation))
+    findings = tuple(dataclasses.replace(f, excitation=excitation(f.excitation))
                      for f in old.findings)
     panels = list(result.panels)
     panels[first] = dataclasses.replace(old, panel=panel, findings=findings)

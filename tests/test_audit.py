@@ -221,8 +221,9 @@ def test_a_panel_the_physics_cannot_mesh_is_listed_and_the_rest_audited(tmp_path
 
 
 def test_panels_of_one_type_share_its_judgement_under_their_own_ids():
-    """Panels of one type are solved and judged once per zone; each panel's findings name
-    that panel, and the findings document (Python ``json``) carries them all."""
+    """Panels of one type are solved and judged once per zone; each panel's result holds the
+    type's findings under its own id, and the findings document (Python ``json``) carries
+    them all, each under its panel."""
     from auditor.model import Equipment, Panel, Project, Schedule, SourceRef
     from auditor.report.exports import findings_json
 
@@ -241,15 +242,16 @@ def test_panels_of_one_type_share_its_judgement_under_their_own_ids():
     schedule = Schedule(panels=panels, equipment=equipment, project=Project(line_frequency=50))
     result = audit_schedule(schedule, load_ruleset("strict"), with_shapes=False)
     assert sum(len(p.findings) for p in result.panels) > 12   # types really are shared
-    for p in result.panels:
-        assert all(f.panel == p.panel.panel for f in p.findings)
-    # panels 0 and 6 are one type in one zone: the same judgement, their own ids
+    # panels 0 and 6 are one type in one zone: one judgement, held by each with its own id
     first, seventh = result.panels[0], result.panels[6]
-    assert [dataclasses.replace(f, panel="") for f in first.findings] == \
-        [dataclasses.replace(f, panel="") for f in seventh.findings]
+    assert (first.panel.panel, seventh.panel.panel) == (panels[0].panel, panels[6].panel)
+    assert first.findings is seventh.findings
     assert first.modes is seventh.modes
     expected = json.loads(json.dumps(findings_document(result)))
     assert json.loads(findings_json(result)) == expected
+    by_id = {entry["panel"]: entry for entry in expected["panels"]}
+    assert sorted(by_id) == sorted(p.panel for p in panels)
+    assert all(len(by_id[p.panel.panel]["findings"]) == len(p.findings) for p in result.panels)
     # Remedies that are work on a stretched panel are flagged, and the document carries the
     # installers' caution once (common practice for tensioned systems).
     assert any(p.remedy is not None and p.remedy.work for p in result.panels)

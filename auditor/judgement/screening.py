@@ -338,14 +338,14 @@ def evaluate_panel(panel: Panel, modes: Sequence[Mode] | ModeArrays,
         limit_hz = assessment_limit_hz(ruleset, excs.top_hz)
     pairs = judge_pairs(arrays, excs, ruleset, limit_hz=limit_hz,
                         overlap_from_hz=math.inf if overlap_from_hz is None else overlap_from_hz)
-    return findings_of(panel.panel, arrays, excs, pairs)
+    return findings_of(arrays, excs, pairs)
 
 
-def findings_of(panel_id: str, modes: ModeArrays, excitations: ExcitationArrays,
+def findings_of(modes: ModeArrays, excitations: ExcitationArrays,
                 pairs: PairGrades) -> tuple[Finding, ...]:
     """The ``Finding`` records of graded pairs (in their order)."""
     return tuple(
-        Finding(panel=panel_id, mode=modes.modes[m], excitation=excitations.excitations[e],
+        Finding(mode=modes.modes[m], excitation=excitations.excitations[e],
                 separation=s, severity="conflict" if g == CONFLICT else "caution", margin=w,
                 response_db=r, amplification=a, transmissibility=t, overlap=o)
         for m, e, s, g, w, r, a, t, o in zip(

@@ -166,7 +166,7 @@ def assess_panel(panel: Panel, modes: Sequence[Mode] | ModeArrays,
     overlap = overlap_frequency_hz(panel, arrays)
     pairs = judge_pairs(arrays, excs, ruleset, limit_hz=assessed,
                         overlap_from_hz=overlap if overlap is not None else math.inf)
-    findings = findings_of(panel.panel, arrays, excs, pairs)
+    findings = findings_of(arrays, excs, pairs)
     beyond = tones_beyond(excs.excitations, assessed, ruleset)
     notes: list[str] = []
     if overlap is not None and overlap < assessed:
