@@ -199,11 +199,12 @@ def _tasks(works: Sequence[TypeWork], jobs: int) -> list[tuple[TypeWork, ...]]:
 
 
 def _context():
-    """Where workers start: a clean server process (``forkserver``, with this module loaded
-    once in it) where the system has one, else fresh interpreters (``spawn``)."""
+    """Where workers start: a clean server process (``forkserver``, with this module and the
+    caller's main module loaded once in it, so that no worker imports them again) where the
+    system has one, else fresh interpreters (``spawn``)."""
     if "forkserver" in multiprocessing.get_all_start_methods():
         context = multiprocessing.get_context("forkserver")
-        context.set_forkserver_preload(["auditor.judging"])
+        context.set_forkserver_preload(["__main__", "auditor.judging"])
         return context
     return multiprocessing.get_context("spawn")
 
@@ -211,11 +212,12 @@ def _context():
 def _pool(jobs: int) -> ProcessPoolExecutor:
     """A process pool of ``jobs`` workers (each task makes its own solve cache).
 
-    Workers start from a clean server process (``forkserver``, with this module loaded once
-    in it) where the system has one, else from fresh interpreters (``spawn``); never as forks
-    of the caller, which may be running threads (a progress bar) and whose linear-algebra
-    library may have started its own threads (``auditor`` keeps it to one thread only when
-    imported before numpy; a fresh worker always imports it first). Like any use of
+    Workers start from a clean server process (``forkserver``, with this module and the
+    caller's main module loaded once in it, :func:`_context`) where the system has one, else
+    from fresh interpreters (``spawn``); never as forks of the caller, which may be running
+    threads (a progress bar) and whose linear-algebra library may have started its own
+    threads (``auditor`` keeps it to one thread only when imported before numpy; a fresh
+    worker always imports it first). Like any use of
     :mod:`multiprocessing` that starts processes this way, a script that audits at its top
     level must do it under ``if __name__ == "__main__":``.
     """
