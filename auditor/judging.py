@@ -216,10 +216,10 @@ def _pool(jobs: int) -> ProcessPoolExecutor:
     caller's main module loaded once in it, :func:`_context`) where the system has one, else
     from fresh interpreters (``spawn``); never as forks of the caller, which may be running
     threads (a progress bar) and whose linear-algebra library may have started its own
-    threads (``auditor`` keeps it to one thread only when imported before numpy; a fresh
-    worker always imports it first). Like any use of
-    :mod:`multiprocessing` that starts processes this way, a script that audits at its top
-    level must do it under ``if __name__ == "__main__":``.
+    threads (``auditor`` asks for one thread in the environment when it is imported, which
+    binds a process only if numpy loads after; the server, started later, inherits that
+    environment). Like any use of :mod:`multiprocessing` that starts processes this way, a
+    script that audits at its top level must do it under ``if __name__ == "__main__":``.
     """
     return ProcessPoolExecutor(max_workers=jobs, mp_context=_context())
 
