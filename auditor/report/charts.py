@@ -46,7 +46,7 @@ from auditor.report.figures import (
     log_frequency_ticks,
     participation_marker_radius,
 )
-from auditor.report.records import modes_between
+from auditor.report.records import mode_columns, modes_between, modes_named
 from auditor.report.text import format_hz
 
 __all__ = [
@@ -218,20 +218,22 @@ def interference_chart(result: PanelResult, excitations: Sequence[Excitation], *
 
     weak = light(style.mode, 0.35)
     ticks = Path(strokeColor=weak, strokeWidth=0.5, fillColor=None)
-    seen: set[int] = set()
-    driven: list[Mode] = []
-    for mode in modes_between(modes, f_low, f_high):
-        key = (mode.label, round(mode.frequency_hz, 9))
-        if mode.participation >= participation_threshold or key in mode_severity:
-            driven.append(mode)
-            continue
-        x = fx(mode.frequency_hz)
-        cell = int(round(x * 4))
-        if cell in seen:
-            continue
-        seen.add(cell)
-        ticks.moveTo(x, mode_y - 3.5)
-        ticks.lineTo(x, mode_y + 3.5)
+    # A film may have thousands of modes in range: they are read as arrays, the driven ones
+    # (and those in findings) made into records, the others one tick per quarter point.
+    shown = modes_between(modes, f_low, f_high)
+    frequency, participation = mode_columns(shown)
+    is_driven = (participation >= participation_threshold) | modes_named(
+        shown, set(mode_severity))
+    driven: list[Mode] = [shown[i] for i in np.flatnonzero(is_driven).tolist()]
+    quiet = np.flatnonzero(~is_driven)
+    if len(quiet):
+        cells = np.rint(4.0 * (left + plot_w * (np.log10(frequency[quiet]) - log_low)
+                               / log_span))
+        _, first = np.unique(cells, return_index=True)
+        for i in quiet[np.sort(first)].tolist():
+            x = fx(float(frequency[i]))
+            ticks.moveTo(x, mode_y - 3.5)
+            ticks.lineTo(x, mode_y + 3.5)
     d.add(ticks)
     plain = rgb(style.mode)
     for mode in sorted(driven, key=lambda m: (-m.participation)):
@@ -278,7 +280,7 @@ def _interference_legend(result: PanelResult, excitations: Sequence[Excitation],
                          threshold: float, f_low: float, f_high: float,
                          style: FigureStyle) -> list[LegendItem]:
     items = [LegendItem("sizes", "mode, sized by participation", style.mode)]
-    if any(m.participation < threshold for m in modes_between(result.modes, f_low, f_high)):
+    if np.any(mode_columns(modes_between(result.modes, f_low, f_high))[1] < threshold):
         items.append(LegendItem("tick", f"mode hardly driven (participation < {threshold:g})",
                                 style.mode))
     severities = {f.severity for f in result.findings}

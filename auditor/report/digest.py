@@ -26,6 +26,8 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Any
 
+import numpy as np
+
 from auditor.model import (
     AuditResult,
     Equipment,
@@ -37,7 +39,7 @@ from auditor.model import (
     PanelResult,
     Project,
 )
-from auditor.report.records import fundamental, mode_frequency, modes_between
+from auditor.report.records import fundamental, mode_columns, mode_frequency, modes_between
 from auditor.report.text import format_hz
 
 __all__ = [
@@ -451,23 +453,21 @@ def tuning_modes(pr: PanelResult, excitations: Sequence[Excitation], ruleset: An
     margin = float(getattr(ruleset, "conflict_margin", 0.1))
     threshold = float(getattr(ruleset, "participation_threshold", 0.01))
     scale_low, scale_high = math.sqrt(low / t0), math.sqrt(high / t0)
-    crossing = []
     top = max((e.high_hz for e in excitations), default=0.0) * (1 + margin)
-    # only modes that reach the top tone's window at the lowest tension can cross one
-    for m in modes_between(modes, 0.0, top / scale_low * (1 + 1e-9)):
-        if m.participation < threshold:
-            continue
-        f_low, f_high = m.frequency_hz * scale_low, m.frequency_hz * scale_high
-        for e in excitations:
-            if f_high >= e.low_hz * (1 - margin) and f_low <= e.high_hz * (1 + margin):
-                crossing.append(m)
-                break
-        if f_low > top:
-            break
-    for m in sorted(crossing, key=lambda m: -m.participation):
+    # only modes that reach the top tone's window at the lowest tension can cross one (read
+    # as arrays: a film has thousands below it)
+    candidates = modes_between(modes, 0.0, top / scale_low * (1 + 1e-9))
+    frequency, participation = mode_columns(candidates)
+    f_low, f_high = frequency * scale_low, frequency * scale_high
+    crosses = np.zeros(len(candidates), dtype=bool)
+    for e in excitations:
+        crosses |= (f_high >= e.low_hz * (1 - margin)) & (f_low <= e.high_hz * (1 + margin))
+    crossing = np.flatnonzero(crosses & (participation >= threshold))
+    # most participating first (ties in frequency order)
+    for i in crossing[np.argsort(-participation[crossing], kind="stable")].tolist():
         if len(chosen) >= limit:
             break
-        add(m)
+        add(candidates[i])
     return sorted(chosen[:max(limit, 1)], key=lambda m: m.frequency_hz)
 
 

@@ -22,11 +22,14 @@ import math
 from collections.abc import Sequence
 from typing import Any
 
+import numpy as np
+
 from auditor.model import AuditResult, Finding, Mode, PanelResult, Remedy, finding_rank
 from auditor.physics.materials import structural_loss_factor
+from auditor.physics.modes import ModeList
 
 __all__ = ["LOWEST_MODES_LISTED", "MODES_LISTED", "finite", "fundamental", "listed_modes",
-           "mode_frequency", "modes_between",
+           "mode_columns", "mode_frequency", "modes_between", "modes_named",
            "ranked_findings", "windows_text", "PanelAssumptions"]
 
 #: How many of a panel's lowest modes the outputs list (besides those findings name).
@@ -72,6 +75,32 @@ def modes_between(modes: Sequence[Mode], low_hz: float, high_hz: float) -> Seque
     start = bisect.bisect_left(modes, low_hz, key=mode_frequency)
     stop = bisect.bisect_right(modes, high_hz, key=mode_frequency)
     return modes[start:max(start, stop)]
+
+
+def mode_columns(modes: Sequence[Mode]) -> tuple[np.ndarray, np.ndarray]:
+    """The frequencies [Hz] and participations [-] of ``modes`` as arrays: a ``ModeList``'s
+    own (no ``Mode`` record made), any other sequence's gathered."""
+    if isinstance(modes, ModeList):
+        return modes.frequency_hz, modes.participation
+    return (np.array([m.frequency_hz for m in modes], dtype=float),
+            np.array([m.participation for m in modes], dtype=float))
+
+
+def modes_named(modes: Sequence[Mode], keys: set[tuple[str, float]]) -> np.ndarray:
+    """Which of ``modes`` are named by ``keys`` (label, frequency [Hz] rounded to 9 decimals),
+    a boolean array; only the modes within 1e-6 Hz of a named frequency are read."""
+    named = np.zeros(len(modes), dtype=bool)
+    if not keys or not len(modes):
+        return named
+    frequency, _ = mode_columns(modes)
+    wanted = np.array(sorted({f for _, f in keys}), dtype=float)
+    near = np.searchsorted(wanted, frequency)
+    gap = np.minimum(np.abs(frequency - wanted[np.minimum(near, len(wanted) - 1)]),
+                     np.abs(frequency - wanted[np.maximum(near - 1, 0)]))
+    for i in np.flatnonzero(gap <= 1e-6).tolist():
+        mode = modes[i]
+        named[i] = (mode.label, round(mode.frequency_hz, 9)) in keys
+    return named
 
 
 def mode_frequency(mode: Mode) -> float:
