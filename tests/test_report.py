@@ -30,6 +30,7 @@ from report_factory import (
     renamed,
     with_source_file,
 )
+from reportlab.graphics.shapes import Path
 from scipy.special import jn_zeros
 
 from auditor.atomic import write_atomic
@@ -423,6 +424,80 @@ def _overlaps(boxes) -> list:
         if a[0] < b[2] and b[0] < a[2] and a[1] < b[3] and b[1] < a[3]:
             out.append((ta, tb))
     return out
+
+
+def _primitives(node) -> list:
+    """A drawing flattened to its shapes' classes and numeric coordinates, in drawing order."""
+    out = []
+    for item in getattr(node, "contents", ()):
+        out.append((type(item).__name__, getattr(item, "points", None),
+                    tuple(getattr(item, a, None) for a in ("cx", "cy", "r", "x", "y", "text"))))
+        out.extend(_primitives(item))
+    return out
+
+
+def _dense_rectangle_modes(width: float, length: float, tension: float,
+                           areal_density: float, orders: int) -> list[Mode]:
+    """Every mode (m, n ≤ ``orders``) of a rectangular membrane, f_mn = ½ √(T/ρs)
+    √((m/Lx)² + (n/Ly)²) and participation 64/(π⁴m²n²) for odd m and n, else 0 (Rayleigh,
+    The Theory of Sound, vol. 1 ch. IX): hundreds of modes, most of them hardly driven."""
+    c = math.sqrt(tension / areal_density)
+    found = sorted((0.5 * c * math.hypot(m / width, n / length), m, n)
+                   for m in range(1, orders + 1) for n in range(1, orders + 1))
+    return [Mode(label=f"({m},{n})", frequency_hz=f, nodal_lines=(),
+                 participation=64.0 / (math.pi**4 * m**2 * n**2) if m % 2 and n % 2 else 0.0,
+                 loss_factor=0.05, in_vacuo_hz=f * 1.6, index=k)
+            for k, (f, m, n) in enumerate(found)]
+
+
+def test_charts_read_mode_arrays_as_they_read_mode_records(result):
+    # The charts read a panel's modes as arrays when the physics holds them so
+    # (``ModeList``); any sequence of Mode records must give the same choice of modes and
+    # the same drawing. A panel of 900 modes, most of them ticks that share a quarter point.
+    from auditor.physics.modes import ModeList
+
+    pr = next(p for p in result.panels if p.panel.shape == "rectangle" and p.findings)
+    # a sixteenth of the tension: the fundamental near 25 Hz, hundreds of modes among the tones
+    modes = tuple(_dense_rectangle_modes(pr.panel.width, pr.panel.length,
+                                         pr.panel.tension_x / 16, pr.panel.areal_density, 30))
+    arrays = ModeList([m.label for m in modes], [m.nodal_lines for m in modes],
+                      *(np.array([getattr(m, name) for m in modes])
+                        for name in ("frequency_hz", "multiplicity", "participation",
+                                     "loss_factor", "in_vacuo_hz", "index")))
+    held = dataclasses.replace(pr, modes=arrays)
+    records = dataclasses.replace(pr, modes=modes)
+    tones = digest.excitations_reaching(result, pr.panel) + tuple(_crowded_tones())
+    rules = result.ruleset
+    low, high, _ = digest.tension_range(pr.panel, rules)
+    scale_low = math.sqrt(low / pr.panel.tension_x)
+    scale_high = math.sqrt(high / pr.panel.tension_x)
+    margin = rules.conflict_margin
+    for limit in (3, 7):
+        # Without findings: the fundamental, then the modes driven at the rule set's
+        # threshold or more whose f·√(T/T₀) passes through a tone's conflict window somewhere
+        # in the tension range, most participating first; listed by frequency.
+        crossing = [m for m in modes[1:] if m.participation >= rules.participation_threshold
+                    and any(m.frequency_hz * scale_high >= e.low_hz * (1 - margin)
+                            and m.frequency_hz * scale_low <= e.high_hz * (1 + margin)
+                            for e in tones)]
+        expected = [modes[0]] + sorted(crossing, key=lambda m: -m.participation)[:limit - 1]
+        expected = [(m.label, m.frequency_hz) for m in sorted(expected,
+                                                              key=lambda m: m.frequency_hz)]
+        for r in (held, records):
+            chosen = digest.tuning_modes(dataclasses.replace(r, findings=()), tones, rules,
+                                         limit=limit)
+            assert [(m.label, m.frequency_hz) for m in chosen] == expected
+    charts = [interference_chart(r, tones, conflict_margin=0.1, caution_margin=0.2)
+              for r in (held, records)]
+    assert _primitives(charts[0]) == _primitives(charts[1])
+    # the hardly driven modes: a 7 pt tick each, ascending, one per quarter point (what a
+    # printed page can show)
+    ticks = [item for item in charts[0].contents if isinstance(item, Path)
+             and item.points and item.points[3] - item.points[1] == 7.0]
+    assert len(ticks) == 1
+    xs = ticks[0].points[0::4]
+    cells = [round(4 * x) for x in xs]
+    assert len(xs) > 20 and all(a < b for a, b in zip(cells, cells[1:]))
 
 
 def _crowded_tones() -> list[Excitation]:
