@@ -20,8 +20,6 @@ process.
 
 from __future__ import annotations
 
-import multiprocessing
-import os
 from collections.abc import Callable, Sequence
 from concurrent.futures import FIRST_COMPLETED, Future, ProcessPoolExecutor, wait
 from dataclasses import dataclass
@@ -35,6 +33,7 @@ from auditor.physics.cache import SolveCache
 from auditor.physics.modes import PanelModes, modes_for, physics_signature
 from auditor.remedy import RemedyMemo, panel_remedy
 from auditor.rules import RuleSet
+from auditor.worker_server import resolved_jobs, start_worker_server, worker_context
 
 __all__ = ["Judged", "TypeJudges", "TypeWork", "POOL_WORTH", "judge_panel", "panel_solver",
            "resolved_jobs", "start_worker_server"]
@@ -145,21 +144,6 @@ def _judge_family(family: tuple[TypeWork, ...], ruleset: RuleSet, air_density: f
             for work in family]
 
 
-def resolved_jobs(jobs: int | None) -> int:
-    """The number of worker processes for ``jobs``: None → every core (``os.cpu_count()``).
-
-    Raises
-    ------
-    ValueError
-        For a number below 1.
-    """
-    if jobs is None:
-        return max(1, os.cpu_count() or 1)
-    if isinstance(jobs, bool) or int(jobs) != jobs or jobs < 1:
-        raise ValueError(f"jobs must be a whole number ≥ 1 or None (every core), got {jobs!r}")
-    return int(jobs)
-
-
 def _geometry(panel: Panel) -> tuple:
     """What panel types must share to save much in the physics' cache: a finite-element
     outline (its basis at one tension ratio, and the air's integrals over it, serve every
@@ -198,22 +182,11 @@ def _tasks(works: Sequence[TypeWork], jobs: int) -> list[tuple[TypeWork, ...]]:
     return tasks
 
 
-def _context():
-    """Where workers start: a clean server process (``forkserver``, with this module and the
-    caller's main module loaded once in it, so that no worker imports them again) where the
-    system has one, else fresh interpreters (``spawn``)."""
-    if "forkserver" in multiprocessing.get_all_start_methods():
-        context = multiprocessing.get_context("forkserver")
-        context.set_forkserver_preload(["__main__", "auditor.judging"])
-        return context
-    return multiprocessing.get_context("spawn")
-
-
 def _pool(jobs: int) -> ProcessPoolExecutor:
     """A process pool of ``jobs`` workers (each task makes its own solve cache).
 
     Workers start from a clean server process (``forkserver``, with this module and the
-    caller's main module loaded once in it, :func:`_context`) where the system has one, else
+    caller's main module loaded once in it, :func:`worker_context`) where the system has one, else
     from fresh interpreters (``spawn``); never as forks of the caller, which may be running
     threads (a progress bar) and whose linear-algebra library may have started its own
     threads (``auditor`` asks for one thread in the environment when it is imported, which
@@ -221,26 +194,7 @@ def _pool(jobs: int) -> ProcessPoolExecutor:
     environment). Like any use of :mod:`multiprocessing` that starts processes this way, a
     script that audits at its top level must do it under ``if __name__ == "__main__":``.
     """
-    return ProcessPoolExecutor(max_workers=jobs, mp_context=_context())
-
-
-def start_worker_server(jobs: int | None) -> None:
-    """Start the server that worker processes are forked from, without waiting for it, when
-    ``jobs`` allows more than one process and the system has one (``forkserver``).
-
-    Its start (an interpreter loading this module, about half a second) then overlaps with
-    what the caller does next (reading the schedule); the pool, if one is started, forks its
-    workers from it. Once running, the server serves every later pool of the process.
-
-    Raises
-    ------
-    ValueError
-        For ``jobs`` below 1 (see :func:`resolved_jobs`), before anything is started.
-    """
-    if resolved_jobs(jobs) > 1 and _context().get_start_method() == "forkserver":
-        from multiprocessing import forkserver
-
-        forkserver.ensure_running()
+    return ProcessPoolExecutor(max_workers=jobs, mp_context=worker_context())
 
 
 #: The least estimated work (in :meth:`PanelType.cost` units, about 0.15 s of one core each

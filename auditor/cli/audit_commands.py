@@ -30,6 +30,10 @@ def run_audit(schedule, rules, out, as_json, fail_on, formats, detail, calibrate
 
     Every option was checked by its callback before this runs.
     """
+    from auditor.worker_server import start_worker_server
+
+    # first, so that the workers' server loads the physics while this process does
+    start_worker_server(jobs)
     from auditor.audit import audit as run
     from auditor.report import exports
     from auditor.rules import RuleSetError
