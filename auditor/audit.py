@@ -38,6 +38,7 @@ import datetime as _dt
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
+from typing import TypedDict
 
 from auditor import __version__
 from auditor.excitation import excitations_for_schedule, mount_of
@@ -54,6 +55,7 @@ from auditor.judging import (
     start_worker_server,
 )
 from auditor.model import (
+    NO_SOURCE,
     AuditResult,
     Equipment,
     Excitation,
@@ -143,8 +145,17 @@ class PanelType:
         return weight * (1.0 + min(float(modes), 1e6) / 50000.0)
 
 
+class _NotPhysics(TypedDict):
+    """The panel fields blanked in a type's representative, besides its source."""
+
+    panel: str
+    zone: str
+    entered: tuple[tuple[str, str], ...]
+    tap_test: str | None
+
+
 #: The panel fields blanked in a type's representative (see :class:`PanelType`).
-_NOT_PHYSICS = {"panel": "", "zone": "", "entered": (), "tap_test": None}
+_NOT_PHYSICS: _NotPhysics = {"panel": "", "zone": "", "entered": (), "tap_test": None}
 
 
 def _zone(panel: Panel, ruleset: RuleSet) -> str:
@@ -186,7 +197,7 @@ def panel_types(panels: Sequence[Panel], groups: Sequence[ToneGroup],
         if key not in found:
             index[key] = len(order)
             order.append(key)
-            found[key] = (dataclasses.replace(panel, source=None, **_NOT_PHYSICS), set(), 0)
+            found[key] = (dataclasses.replace(panel, source=NO_SOURCE, **_NOT_PHYSICS), set(), 0)
         representative, used, count = found[key]
         used.add(group)
         found[key] = (representative, used, count + 1)

@@ -56,7 +56,7 @@ class Judged:
     ``findings`` are ranked worst first and name no panel (every panel of the type in the
     group holds the same tuple in its ``PanelResult``)."""
 
-    modes: tuple[Mode, ...]
+    modes: Sequence[Mode]
     loading: str
     notes: tuple[str, ...]
     shapes: tuple[ShapeGrid, ...]

@@ -50,6 +50,11 @@ class SourceRef:
     row: int
 
 
+#: The source of a record that stands for others and was read from no row (a panel type's
+#: representative: ``auditor.physics.modes.physics_key``).
+NO_SOURCE = SourceRef("", "", 0)
+
+
 @dataclass(frozen=True)
 class RowProblem:
     """Something the reader (or a later stage) could not use, or doubts.

@@ -408,17 +408,17 @@ def panel_remedy(panel: Panel, excitations: Sequence[Excitation] | ExcitationArr
     if tx <= 0 or ty <= 0:
         return _bays_or_statement(solver, None, panel, tail, now)
     top = max(tx, ty)
-    rated = panel.max_tension is not None and top > 0
-    high = panel.max_tension / top if rated else ruleset.max_tension_factor
+    rated = panel.max_tension if top > 0 else None      # the rated maximum, when given
+    high = rated / top if rated is not None else ruleset.max_tension_factor
     low = min(ruleset.min_tension_factor, high)
     search = _search(solver, low, high, scales_exactly(panel))
     windows = tuple((a * tx, b * tx) for a, b in search.windows)
-    if rated:
-        ceiling = f"rated maximum {_t(panel.max_tension)} N/m"
+    if rated is not None:
+        ceiling = f"rated maximum {_t(rated)} N/m"
     else:
         ceiling = (f"no rated maximum in the schedule; ceiling taken as "
                    f"{ruleset.max_tension_factor:g} × scheduled = {_t(top * high)} N/m")
-    if search.chosen is None:
+    if search.chosen is None or search.verified is None:   # both are set, or neither
         return _bays_or_statement(solver, search, panel, tail, now, low=low, high=high,
                                   windows=windows)
     s, grades = search.chosen, search.verified

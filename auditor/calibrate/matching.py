@@ -22,9 +22,10 @@ import numpy as np
 __all__ = ["match_peaks"]
 
 
-def match_peaks(peak_hz: Sequence[float], predicted_hz: Sequence[float],
+def match_peaks(peak_hz: Sequence[float] | np.ndarray,
+                predicted_hz: Sequence[float] | np.ndarray,
                 tolerance: float = 0.05,
-                missing_weight: Sequence[float] | None = None,
+                missing_weight: Sequence[float] | np.ndarray | None = None,
                 ) -> tuple[list[tuple[int, int]], float]:
     """Pair peaks one-to-one with predicted modes, robust to missing and spurious peaks.
 
@@ -35,11 +36,11 @@ def match_peaks(peak_hz: Sequence[float], predicted_hz: Sequence[float],
 
     Parameters
     ----------
-    peak_hz : sequence of float  [Hz]
-    predicted_hz : sequence of float  [Hz]
+    peak_hz : sequence or ndarray of float  [Hz]
+    predicted_hz : sequence or ndarray of float  [Hz]
     tolerance : float  [-]
         Largest relative frequency difference of a pair.
-    missing_weight : sequence of float or None  [-]
+    missing_weight : sequence or ndarray of float, or None  [-]
         Cost of leaving each mode without a peak, as a fraction of an unpaired peak's cost.
 
     Returns

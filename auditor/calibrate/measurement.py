@@ -13,6 +13,8 @@ trade.
 
 from __future__ import annotations
 
+from typing import TypedDict
+
 import numpy as np
 
 from auditor.calibrate.modal_terms import refine_modal_fit
@@ -21,6 +23,12 @@ from auditor.calibrate.recording import Recording
 from auditor.calibrate.spectrum import tap_spectrum
 
 __all__ = ["measure_peaks", "hum_lines"]
+
+
+class _SpectrumOptions(TypedDict, total=False):
+    """The options of ``measure_peaks`` that go to ``tap_spectrum``."""
+
+    window_end: float
 
 
 def measure_peaks(recording: Recording, *, fmin: float | None = None,
@@ -42,14 +50,19 @@ def measure_peaks(recording: Recording, *, fmin: float | None = None,
     -------
     tuple of Peak
     """
-    spectrum_options = {k: options.pop(k) for k in ("window_end",) if k in options}
-    if recording.samples is not None:
+    spectrum_options: _SpectrumOptions = {}
+    if "window_end" in options:
+        spectrum_options["window_end"] = options.pop("window_end")
+    # a Recording holds samples with their rate, or a spectrum (Recording.__post_init__)
+    if recording.samples is not None and recording.sample_rate is not None:
         spectrum = tap_spectrum(recording.samples, float(recording.sample_rate),
                                 **spectrum_options)
         peaks = spectral_peaks(spectrum.frequencies_hz, spectrum.levels_db,
                                window_bandwidth_hz=spectrum.window_bandwidth_hz,
                                fmin=fmin, fmax=fmax, **options)
         return refine_modal_fit(spectrum, peaks) if refine else peaks
+    if recording.frequencies_hz is None or recording.levels_db is None:
+        raise ValueError("a Recording holds either samples or a spectrum")
     return spectral_peaks(recording.frequencies_hz, recording.levels_db, fmin=fmin, fmax=fmax,
                           **options)
 

@@ -125,7 +125,7 @@ class Recording:
     @property
     def duration(self) -> float | None:
         """Length of a time series  [s]; None for a spectrum."""
-        if self.samples is None:
+        if self.samples is None or self.sample_rate is None:   # a rate comes with samples
             return None
         return len(self.samples) / float(self.sample_rate)
 

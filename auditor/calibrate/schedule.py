@@ -16,7 +16,7 @@ from auditor.calibrate.confinement import OUTSIDE_FOLDER, locate_recording, sche
 from auditor.calibrate.fit import ModesOf, calibrate_panel
 from auditor.calibrate.reader import read_recording
 from auditor.calibrate.recording import RecordingError
-from auditor.model import Panel, RowProblem, Schedule
+from auditor.model import Panel, RowProblem, Schedule, Severity
 
 __all__ = ["calibrate_schedule"]
 
@@ -98,7 +98,7 @@ def calibrate_schedule(
         if not panel.tap_test or not panel.tap_test.strip():
             continue
 
-        def problem(message: str, severity: str = "warning", panel: Panel = panel) -> None:
+        def problem(message: str, severity: Severity = "warning", panel: Panel = panel) -> None:
             problems.append(RowProblem(
                 file=panel.source.file, sheet=panel.source.sheet, row=panel.source.row,
                 column=_tap_test_column(panel),

@@ -4,13 +4,22 @@ schedule."""
 from __future__ import annotations
 
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import typer
 
 from auditor.cli.options import AUDIT_HELP, Fit
 from auditor.cli.terminal import print_problems
 
+if TYPE_CHECKING:
+    from auditor.calibrate.calibration import FitParameter
+
 __all__ = ["calibrate_command"]
+
+#: Each ``--fit`` choice as ``auditor.calibrate`` names its parameter.
+_FIT_PARAMETER: dict[Fit, FitParameter] = {
+    Fit.tension: "tension", Fit.tension_ratio: "tension_ratio",
+    Fit.areal_density: "areal_density"}
 
 
 def calibrate_command(
@@ -40,12 +49,12 @@ def calibrate_command(
 
     with console.status("Fitting tap tests"):
         calibrations, problems = calibrate_schedule(read, calibration_modes(read.project),
-                                                    panel_id=panel, fit=fit.value.replace("-", "_"),
+                                                    panel_id=panel, fit=_FIT_PARAMETER[fit],
                                                     allow_outside=recordings_anywhere)
-    problems = list(read.problems) + list(problems)
+    every_problem = list(read.problems) + list(problems)
     if as_json:
         typer.echo(json.dumps({"panels": [calibration_to_dict(c) for c in calibrations],
-                               "problems": [q.as_dict() for q in problems]},
+                               "problems": [q.as_dict() for q in every_problem]},
                               indent=1, ensure_ascii=False))
     else:
         table = Table(title="Tap-test calibration", title_justify="left")
@@ -58,5 +67,5 @@ def calibrate_command(
                           format_uncertainty(c), str(len(c.peaks_hz)),
                           str(len(c.matched)), f"{c.residual:.2f} %")
         console.print(table)
-        print_problems(console, problems)
-    raise typer.Exit(0 if calibrations or not problems else 2)
+        print_problems(console, every_problem)
+    raise typer.Exit(0 if calibrations or not every_problem else 2)

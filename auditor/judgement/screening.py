@@ -38,7 +38,7 @@ from __future__ import annotations
 import math
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
-from typing import Any
+from typing import TYPE_CHECKING, Any, Protocol
 
 import numpy as np
 
@@ -46,6 +46,9 @@ from auditor.judgement.response import modal_amplification, response_db, transmi
 from auditor.model import Equipment, Excitation, Finding, Mode, Panel
 from auditor.physics.materials import structural_loss_factor
 from auditor.rules import SEPARATION_TOLERANCE, RuleSet
+
+if TYPE_CHECKING:
+    from typing_extensions import TypeIs
 
 __all__ = [
     "ExcitationArrays",
@@ -138,33 +141,53 @@ class ExcitationArrays:
         return float(self.high.max()) if len(self.high) else None
 
 
+class ModeColumns(Protocol):
+    """A solve that holds a panel's modes as arrays (a ``PanelModes``): ``frequency_hz``,
+    ``participation`` and ``loss_factor`` (n,), and the ``Mode`` records as ``modes``."""
+
+    @property
+    def frequency_hz(self) -> np.ndarray: ...
+    @property
+    def participation(self) -> np.ndarray: ...
+    @property
+    def loss_factor(self) -> np.ndarray: ...
+    @property
+    def modes(self) -> Sequence[Mode]: ...
+
+
+def holds_mode_columns(modes: Sequence[Mode] | ModeColumns) -> TypeIs[ModeColumns]:
+    """Whether ``modes`` holds its modes as arrays (its ``frequency_hz`` is an ndarray)."""
+    return isinstance(getattr(modes, "frequency_hz", None), np.ndarray)
+
+
 @dataclass(frozen=True, eq=False)
 class ModeArrays:
     """A panel's modes sorted by frequency, with their frequency, participation and loss factor
     as arrays. ``loss_factor`` is NaN where unknown (no widening there); ``response_loss_factor``
     fills those with the panel's structural default for the response estimate."""
 
-    modes: tuple[Mode, ...]
+    modes: Sequence[Mode]
     frequency: np.ndarray
     participation: np.ndarray
     loss_factor: np.ndarray
     response_loss_factor: np.ndarray
 
     @classmethod
-    def of(cls, modes: Sequence[Mode] | ModeArrays, default_loss_factor: float,
+    def of(cls, modes: Sequence[Mode] | ModeArrays | ModeColumns, default_loss_factor: float,
            records: bool = True) -> ModeArrays:
         """From ``Mode`` records, or from a solve that holds its modes as arrays (a
         ``PanelModes``: ascending, with ``frequency_hz``, ``participation`` and
         ``loss_factor`` arrays), whose records are taken only when ``records``."""
         if isinstance(modes, ModeArrays):
             return modes
-        if isinstance(getattr(modes, "frequency_hz", None), np.ndarray):
+        if holds_mode_columns(modes):
             frequency = np.asarray(modes.frequency_hz, float)
             eta = np.asarray(modes.loss_factor, float)
             ascending = bool(np.all(frequency[1:] >= frequency[:-1]))
-            order = slice(None) if ascending else np.argsort(frequency, kind="stable")
-            listed = modes.modes if records else ()   # made when read (a ModeList)
-            if records and not ascending:
+            order: slice | np.ndarray = (slice(None) if ascending
+                                         else np.argsort(frequency, kind="stable"))
+            listed: Sequence[Mode] = modes.modes if records else ()   # made when read
+            if records and isinstance(order, np.ndarray):   # i.e. not ascending
                 listed = tuple(listed[k] for k in order)
             return cls(listed, frequency[order], np.asarray(modes.participation, float)[order],
                        eta[order], np.where(np.isfinite(eta[order]), np.abs(eta[order]),

@@ -45,12 +45,16 @@ __all__ = ["SolvedScale", "ModeTracks", "mode_tracks", "modes_at", "blocked_inte
 
 
 class SolvedScale(Protocol):
-    """The full model solved at one tension scale."""
+    """The full model solved at one tension scale (read-only)."""
 
-    scale: float
-    modes: ModeArrays
-    labels: tuple[str, ...]
-    overlap_from_hz: float
+    @property
+    def scale(self) -> float: ...
+    @property
+    def modes(self) -> ModeArrays: ...
+    @property
+    def labels(self) -> tuple[str, ...]: ...
+    @property
+    def overlap_from_hz(self) -> float: ...
 
 
 @dataclass(frozen=True, eq=False)
@@ -164,10 +168,10 @@ def blocked_intervals(tracks: ModeTracks, excitations: ExcitationArrays, ruleset
     reach = ruleset.caution_margin + (float(widen.max()) if len(widen) else 0.0) \
         + SEPARATION_TOLERANCE
     k_idx, e_idx = [], []
-    for e, (lo, hi) in enumerate(zip(excitations.low, excitations.high)):
+    for tone, (lo, hi) in enumerate(zip(excitations.low, excitations.high)):
         hit = np.flatnonzero((fmax >= lo * (1 - reach)) & (fmin <= hi * (1 + reach)))
         k_idx.append(hit)
-        e_idx.append(np.full(len(hit), e))
+        e_idx.append(np.full(len(hit), tone))
     k = np.concatenate(k_idx) if k_idx else np.zeros(0, int)
     e = np.concatenate(e_idx) if e_idx else np.zeros(0, int)
     lo, hi = excitations.low[e], excitations.high[e]
@@ -267,7 +271,7 @@ def caution_regions(windows, finding_starts, finding_ends) -> list[tuple[float, 
     """The windows cut where the number of cautions changes: (low, high, cautions)."""
     keep = np.isfinite(finding_starts) & np.isfinite(finding_ends)
     starts, ends = np.sort(finding_starts[keep]), np.sort(finding_ends[keep])
-    out = []
+    out: list[tuple[float, float, int]] = []
     for a, b in windows:
         cuts = sorted({a, b, *(x for x in np.concatenate([starts, ends]).tolist() if a < x < b)})
         for x, y in zip(cuts[:-1], cuts[1:]):

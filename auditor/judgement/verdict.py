@@ -41,6 +41,7 @@ from auditor.judgement.response import modal_overlap_frequency_hz
 from auditor.judgement.screening import (
     ExcitationArrays,
     ModeArrays,
+    ModeColumns,
     default_loss_factor,
     findings_of,
     judge_pairs,
@@ -138,7 +139,7 @@ def _beyond_text(beyond: Sequence[Excitation], limit: int = 3) -> str:
     return ", ".join(names) + (f" and {rest} more" if rest > 0 else "")
 
 
-def assess_panel(panel: Panel, modes: Sequence[Mode] | ModeArrays,
+def assess_panel(panel: Panel, modes: Sequence[Mode] | ModeArrays | ModeColumns,
                  excitations: Sequence[Excitation] | ExcitationArrays, ruleset: RuleSet, *,
                  limit_hz: float, complete_to_hz: float = math.inf) -> PanelAssessment:
     """Findings, verdict and its reason for one panel.

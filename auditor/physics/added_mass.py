@@ -293,7 +293,7 @@ def _rectangle_moments(aspect: float, m_count: int, n_count: int) -> dict:
         sines, cosines = _harmonics(count, s)
         return sines, (1.0 - s) * cosines
 
-    moments = {}
+    moments: dict[tuple[int, int], np.ndarray] = {}
     # (count on σ, count on στ, weight of τ, whether σ carries the x index)
     for outer, inner, tau_weight, x_outer in (
             (m_count, n_count, weights / np.sqrt(1.0 + (alpha * nodes) ** 2), True),

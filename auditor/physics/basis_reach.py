@@ -175,8 +175,9 @@ def truncated_basis(basis: ModalBasis, count: int, cache: SolveCache) -> ModalBa
 
     evaluate_kept, evaluate_some = cache.families.get_for(
         (basis.evaluate, basis.region), ("truncated", keep.tobytes()), shapes)
-    family = None if basis.family is None else cache.families.get_for(
-        (basis.family,), ("truncated", keep.tobytes()), lambda: basis.family.subset(keep))
+    shape_family = basis.family
+    family = None if shape_family is None else cache.families.get_for(
+        (shape_family,), ("truncated", keep.tobytes()), lambda: shape_family.subset(keep))
 
     return ModalBasis(
         region=basis.region,

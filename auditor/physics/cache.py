@@ -24,7 +24,7 @@ from __future__ import annotations
 
 from collections import OrderedDict
 from dataclasses import dataclass, field
-from typing import Callable, Hashable, TypeVar
+from typing import Any, Callable, Hashable, TypeVar
 
 __all__ = ["SolveCache", "StoreInfo", "shared_size"]
 
@@ -60,7 +60,8 @@ class _Store:
 
     def __init__(self, max_entries: int, max_bytes: int | None = None,
                  size: Callable[[object], int] | None = None):
-        self._entries: OrderedDict[Hashable, object] = OrderedDict()
+        # values of any type; an entry of get_for is the pair (owners, value)
+        self._entries: OrderedDict[Hashable, Any] = OrderedDict()
         self._max_entries = max_entries
         self._max_bytes = max_bytes
         self._size = size
@@ -73,7 +74,7 @@ class _Store:
         if key in self._entries:
             self._entries.move_to_end(key)
             self.hits += 1
-            return self._entries[key]  # type: ignore[return-value]
+            return self._entries[key]
         self.misses += 1
         value = make()
         self._put(key, value)

@@ -115,25 +115,28 @@ def _points_cavity(family: PointShapes, depth: float, cache: SolveCache) -> Cavi
     n = family.values.shape[1]
     count = min(400, max(40, 2 * n + 20))
     x, w = family.points, family.weights
+    shapes: np.ndarray
+    wavenumbers: np.ndarray
     if isinstance(region, RectangleRegion):
         side = int(math.ceil(math.sqrt(count))) + 2
-        p, q = np.meshgrid(np.arange(side), np.arange(side), indexing="ij")
-        p, q = p.ravel(), q.ravel()
+        p_grid, q_grid = np.meshgrid(np.arange(side), np.arange(side), indexing="ij")
+        p, q = p_grid.ravel(), q_grid.ravel()
         shapes = np.cos(np.outer(x[:, 0], p * np.pi / region.width)) * np.cos(
             np.outer(x[:, 1], q * np.pi / region.length))
         wavenumbers = np.hypot(p * np.pi / region.width, q * np.pi / region.length)
     elif isinstance(region, CircleRegion):
         a = region.radius
         r, theta = np.hypot(x[:, 0], x[:, 1]) / a, np.arctan2(x[:, 1], x[:, 0])
-        shapes, wavenumbers = [], []
+        shape_parts: list[np.ndarray] = []
+        wavenumber_parts: list[np.ndarray] = []
         for m in range(0, 12):
             beta = (special.jnp_zeros(m, 8) if m > 0
                     else np.concatenate([[0.0], special.jnp_zeros(0, 8)]))
             radial = special.jv(m, np.outer(r, beta))
             for angular in ((np.cos,) if m == 0 else (np.cos, np.sin)):
-                shapes.append(radial * angular(m * theta)[:, None])
-                wavenumbers.append(beta / a)
-        shapes, wavenumbers = np.hstack(shapes), np.concatenate(wavenumbers)
+                shape_parts.append(radial * angular(m * theta)[:, None])
+                wavenumber_parts.append(beta / a)
+        shapes, wavenumbers = np.hstack(shape_parts), np.concatenate(wavenumber_parts)
     else:
         # The finite-element path owns polygon cavities. The coarse mesh, as for the panel's
         # own basis of many modes (the cavity's frequencies change the panel's by about 2e-4

@@ -100,7 +100,7 @@ def circular_participation(m, zero):
         return np.where(m == 0, 4.0 / zero**2, 0.0)
 
 
-def _check_circle(tension, areal_density, radius):
+def _check_circle(tension, areal_density, radius) -> tuple[float, float, float]:
     return (_positive(tension, "tension", "N/m"),
             _positive(areal_density, "areal_density", "kg/m²"),
             _positive(radius, "radius", "m"))

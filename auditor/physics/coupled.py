@@ -42,7 +42,7 @@ from auditor.physics.cavity import (
     cavity_split,
     cavity_sums,
 )
-from auditor.physics.quadrature import quadrature_family
+from auditor.physics.quadrature import QuadratureFamily, quadrature_family
 
 __all__ = [
     "FollowedMode",
@@ -68,7 +68,7 @@ class ModalSystem:
     :meth:`cavity_stack`. The solvers set ``series_reach_hz``.
     """
 
-    family: object
+    family: QuadratureFamily
     stiffness: np.ndarray      # K_s  [N/m]
     mass: np.ndarray           # M_s + air sides (incompressible)  [kg]
     structural_mass: float     # ρs A  [kg]
@@ -88,10 +88,13 @@ class ModalSystem:
         key = index.tobytes()
         sub = self._cavity_blocks.get(key)
         if sub is None:
-            rows = self.cavity.coupling[index]
+            cavity = self.cavity
+            if cavity is None:   # only a system over a sealed cavity is asked for its blocks
+                raise ValueError("the panel has no cavity behind it")
+            rows = cavity.coupling[index]
             coupled = np.any(rows != 0, axis=0)
             sub = self._cavity_blocks[key] = CavityCoupling(
-                self.cavity.wavenumbers[coupled], rows[:, coupled], self.cavity.depth)
+                cavity.wavenumbers[coupled], rows[:, coupled], cavity.depth)
         return sub
 
     _air_bases: dict = field(default_factory=dict, repr=False)
@@ -216,7 +219,8 @@ def frequency_independent_solution(system: ModalSystem, blocks, cache: SolveCach
                                    f_keep: float | None = None):
     """Eigenpairs of the panel with incompressible air and the cavity's low-frequency limit,
     block by block, ascending in eigenvalue (only those up to ``f_keep`` [Hz] when given)."""
-    values, vectors = [], []
+    value_parts: list[np.ndarray] = []
+    vector_parts: list[np.ndarray] = []
     n = system.stiffness.shape[0]
     for block, (w, v) in zip(blocks, _block_eigenpairs(system, blocks, cache)):
         if f_keep is not None:
@@ -224,10 +228,10 @@ def frequency_independent_solution(system: ModalSystem, blocks, cache: SolveCach
             w, v = w[kept], v[:, kept]
         full = np.zeros((n, v.shape[1]))
         full[block] = v
-        values.append(w)
-        vectors.append(full)
-    values = np.concatenate(values)
-    vectors = np.hstack(vectors)
+        value_parts.append(w)
+        vector_parts.append(full)
+    values = np.concatenate(value_parts)
+    vectors = np.hstack(vector_parts)
     order = np.argsort(values)
     return values[order], vectors[:, order]
 

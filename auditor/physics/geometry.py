@@ -357,7 +357,7 @@ def _circle_polygon_relation(
 
 
 def outline_problems(
-    outline: Sequence[Sequence[float]] | None, cutouts: Sequence[Cutout] = ()
+    outline: Sequence[Sequence[float]] | np.ndarray | None, cutouts: Sequence[Cutout] = ()
 ) -> list[str]:
     """Everything that stops a polygonal panel with cut-outs from being meshed.
 
@@ -498,7 +498,7 @@ class ShapeNormalisation:
         return np.asarray(points, float) * self.length + np.asarray(self.origin)
 
 
-def shape_normalisation(outline: Sequence[Sequence[float]]) -> ShapeNormalisation:
+def shape_normalisation(outline: Sequence[Sequence[float]] | np.ndarray) -> ShapeNormalisation:
     """Origin and characteristic length of an outline (see :class:`ShapeNormalisation`)."""
     vertices = as_vertices(outline)
     origin = vertices.min(axis=0)
@@ -522,7 +522,8 @@ def _canonical_ring(vertices: np.ndarray, counter: bool) -> np.ndarray:
 
 
 def normalised_shape_key(
-    outline: Sequence[Sequence[float]], cutouts: Sequence[Cutout] = (), tension_ratio: float = 1.0
+    outline: Sequence[Sequence[float]] | np.ndarray, cutouts: Sequence[Cutout] = (),
+    tension_ratio: float = 1.0,
 ) -> tuple:
     """A hashable key shared by every panel of the same shape (up to size and position).
 

@@ -17,11 +17,11 @@ import math
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 from functools import cached_property
-from typing import Callable
+from typing import Callable, TypedDict
 
 import numpy as np
 
-from auditor.model import CircleCutout, Mode, Panel, ShapeGrid
+from auditor.model import NO_SOURCE, CircleCutout, Mode, Panel, ShapeGrid, SourceRef
 from auditor.physics import fem, fluid, membrane, uncoupled
 from auditor.physics.basis import ModalBasis, complete_below, names_at
 from auditor.physics.basis_reach import REACH_MASS_MARGIN
@@ -275,6 +275,8 @@ def basis_factory(panel: Panel, cache: SolveCache | None = None
         return build, tuple(notes)
     if panel.shape == "circle" and not panel.cutouts and tx == ty:
         def build(f_limit: float, max_modes: int | None = ANALYTIC_MAX_BASIS) -> ModalBasis:
+            if panel.diameter is None:   # the schedule requires it of a circle
+                raise ValueError("a circular panel needs its diameter")
             return membrane.circular_membrane_basis(tx, rho, panel.diameter / 2, f_limit,
                                                     max_modes=max_modes)
         if panel.bending_stiffness:
@@ -296,7 +298,7 @@ def basis_factory(panel: Panel, cache: SolveCache | None = None
     area = abs(signed_area(outline)) - sum(abs(signed_area(_cutout_vertices(c)))
                                            for c in panel.cutouts)
 
-    def build(f_limit: float, max_modes: int | None = FEM_MAX_BASIS) -> ModalBasis:
+    def build_polygon(f_limit: float, max_modes: int | None = FEM_MAX_BASIS) -> ModalBasis:
         # Weyl's law, N(f) ≈ A·π·f²·ρs/√(Tx·Ty), sizes the request in modes (rounded up to a
         # power of two so that nearby requests share a solve). A basis for the air's coupling
         # is cut at FEM_MAX_BASIS modes on the coarse mesh: its fundamental agrees with the
@@ -311,7 +313,7 @@ def basis_factory(panel: Panel, cache: SolveCache | None = None
         accuracy = "default" if count <= 16 else "coarse"
         return _scaled_polygon_basis(outline, panel.cutouts, tx, ty, rho, count, accuracy, cache)
 
-    return build, tuple(notes)
+    return build_polygon, tuple(notes)
 
 
 def _unit_polygon_basis(outline, cutouts, tension_ratio: float, count: int, accuracy: str,
@@ -338,9 +340,20 @@ def _scaled_polygon_basis(outline, cutouts, tx: float, ty: float, rho: float, co
                                complete_to_hz=unit.complete_to * factor)
 
 
+class _Blank(TypedDict):
+    """The panel fields that do not change its modes."""
+
+    panel: str
+    zone: str
+    source: SourceRef
+    entered: tuple[tuple[str, str], ...]
+    tap_test: str | None
+    max_tension: float | None
+
+
 #: The panel fields that do not change its modes, and their blank values.
-_BLANK = {"panel": "", "zone": "", "source": None, "entered": (), "tap_test": None,
-          "max_tension": None}
+_BLANK: _Blank = {"panel": "", "zone": "", "source": NO_SOURCE, "entered": (), "tap_test": None,
+                  "max_tension": None}
 
 
 def physics_key(panel: Panel) -> Panel:

@@ -225,18 +225,18 @@ def _conforming_delaunay(
     (lattice points inside its diametral circle removed) until every piece is an edge.
     """
     rings = [outline, *holes]
-    boundary = []
-    segments = []
+    ring_points: list[np.ndarray] = []
+    ring_segments: list[np.ndarray] = []
     offset = 0
     for ring in rings:
         pts = _subdivide_ring(ring, max_edge)
         n = len(pts)
-        boundary.append(pts)
+        ring_points.append(pts)
         idx = offset + np.arange(n)
-        segments.append(np.column_stack((idx, np.roll(idx, -1))))
+        ring_segments.append(np.column_stack((idx, np.roll(idx, -1))))
         offset += n
-    boundary = np.vstack(boundary)
-    segments = np.vstack(segments)
+    boundary: np.ndarray = np.vstack(ring_points)
+    segments: np.ndarray = np.vstack(ring_segments)
 
     lattice = _interior_points(outline, holes, boundary, segments, max_edge)
 

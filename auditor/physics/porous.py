@@ -29,6 +29,13 @@ from auditor.physics.coupled import FollowedMode, ModalSystem, solve_stack, stac
 __all__ = ["porous_modes"]
 
 
+def _resistance(system: ModalSystem) -> float:
+    """The sheet's flow resistance rA [kg/s] of a porous panel's system."""
+    if system.resistance is None:   # only a porous panel's system is solved here
+        raise ValueError("the panel is not porous: it has no airflow resistance")
+    return system.resistance
+
+
 def _porous_operator(system: ModalSystem, block, frequency: float):
     """Stiffness, mass and damping of the panel and air coordinates z = (q, u) of a porous
     panel, the air's matrices (both sides and the cavity) taken at ``frequency`` [Hz].
@@ -47,7 +54,7 @@ def _porous_operator(system: ModalSystem, block, frequency: float):
     mass = np.zeros((2 * size, 2 * size))
     mass[panel, panel] = system.structural_mass * np.eye(size)
     mass[air_part, air_part] = system.air_mass[np.ix_(block, block)] + m_cav
-    eye = system.resistance * np.eye(size)
+    eye = _resistance(system) * np.eye(size)
     damping = np.block([[eye, -eye], [-eye, eye]])
     return stiffness, mass, damping
 
@@ -109,7 +116,7 @@ class _Block:
                                 * (1 + 1j * system.eta_structure))        # (n,)
         self.panel_mass = system.structural_mass                           # ρs A
         self.air_mass = system.air_mass[np.ix_(block, block)]               # (n, n)
-        self.r = system.resistance
+        self.r = _resistance(system)
 
     def air_matrices(self, frequencies_hz: np.ndarray):
         """The air's stiffness and total mass at each frequency [Hz], (k, n, n)."""
@@ -192,8 +199,10 @@ def _refine_porous(part: _Block, vectors: np.ndarray, roots: np.ndarray,
     return z, omega
 
 
-def porous_modes(system: ModalSystem, blocks, f_reach: float, count: int) -> list[FollowedMode]:
-    """The panel modes of a porous panel up to ``f_reach`` [Hz] (at most ``count``).
+def porous_modes(system: ModalSystem, blocks, f_reach: float,
+                 count: int | None) -> list[FollowedMode]:
+    """The panel modes of a porous panel up to ``f_reach`` [Hz] (at most ``count``, when
+    given).
 
     Every root of the panel-and-air problem (air's matrices at zero frequency) is found at
     once, so none is missed and none is confused with the relaxation roots (air leaking

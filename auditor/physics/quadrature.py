@@ -18,7 +18,15 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.spatial import Delaunay
 
-from auditor.physics.basis import CircleRegion, ModalBasis, PolygonRegion, RectangleRegion
+from auditor.physics.basis import (
+    CircleRegion,
+    DiscShapes,
+    ModalBasis,
+    PolygonRegion,
+    RectangleRegion,
+    RectangleShapes,
+    Region,
+)
 from auditor.physics.cache import SolveCache
 
 __all__ = ["PointShapes", "point_shapes", "quadrature_family"]
@@ -30,7 +38,7 @@ class PointShapes:
 
     Parameters
     ----------
-    region : object
+    region : RectangleRegion, CircleRegion or PolygonRegion
         The basis's region (:mod:`auditor.physics.basis`).
     points : ndarray (P, 2)  [m]
         Cell centroids.
@@ -44,7 +52,7 @@ class PointShapes:
         √(2 × mean cell area).
     """
 
-    region: object
+    region: Region
     points: np.ndarray      # (P, 2) cell centroids  [m]
     weights: np.ndarray     # (P,) cell areas  [m²]
     corners: np.ndarray     # (P, 3, 2) cell vertices, counter-clockwise  [m]
@@ -59,7 +67,11 @@ class PointShapes:
         return [np.arange(self.values.shape[1])]
 
 
-def quadrature_family(basis: ModalBasis, cache: SolveCache):
+#: What the loading step integrates over: a basis's analytic family, else its point family.
+QuadratureFamily = RectangleShapes | DiscShapes | PointShapes
+
+
+def quadrature_family(basis: ModalBasis, cache: SolveCache) -> QuadratureFamily:
     """The quadrature family for a basis: its own analytic family (rectangle, disc), else
     a point family of its shapes, kept in ``cache`` by the shapes and region (bases that
     share their shapes, one outline at several tensions, share it and what is kept for it)."""
@@ -86,14 +98,15 @@ def _region_triangulation(region, spacing: float) -> tuple[np.ndarray, np.ndarra
         triangles = np.vstack([np.column_stack([a, b, c]), np.column_stack([a, c, d])])
         return nodes, triangles
     if isinstance(region, CircleRegion):
-        a = region.radius
-        rings = max(2, int(math.ceil(a / spacing)))
-        nodes = [np.zeros((1, 2))]
-        for i in range(1, rings + 1):
+        radius = region.radius
+        ring_count = max(2, int(math.ceil(radius / spacing)))
+        ring_nodes = [np.zeros((1, 2))]
+        for i in range(1, ring_count + 1):
             count = 6 * i
             angle = np.arange(count) * 2 * np.pi / count + (0.5 * np.pi / count) * (i % 2)
-            nodes.append(a * i / rings * np.column_stack([np.cos(angle), np.sin(angle)]))
-        nodes = np.vstack(nodes)
+            ring_nodes.append(radius * i / ring_count
+                              * np.column_stack([np.cos(angle), np.sin(angle)]))
+        nodes = np.vstack(ring_nodes)
         return nodes, Delaunay(nodes).simplices
     # A polygon without a mesh: boundary samples and an interior lattice, Delaunay, keep
     # the triangles whose centroid lies inside.

@@ -171,7 +171,8 @@ def _empty_spectrum(index_dtype=np.int64):
     return np.empty(0), np.empty(0, dtype=index_dtype), np.empty(0, dtype=index_dtype)
 
 
-def _check_rectangle(tension_x, tension_y, areal_density, width, length, bending_stiffness):
+def _check_rectangle(tension_x, tension_y, areal_density, width, length, bending_stiffness
+                     ) -> tuple[float, float, float, float, float, float]:
     tx = _non_negative(tension_x, "tension_x", "N/m")
     ty = _non_negative(tension_y, "tension_y", "N/m")
     rho = _positive(areal_density, "areal_density", "kg/m²")
@@ -316,9 +317,10 @@ def rectangular_membrane_spectra(tension_x, tension_y, areal_density, width, len
         _frequency_limit(value, max_modes)
     cap = None if max_modes is None else int(max_modes)
 
-    parts = [_rectangle_spectrum(*row, cap, index_dtype=np.int32) for row in zip(
-        tx.tolist(), ty.tolist(), rho.tolist(), lx.tolist(), ly.tolist(), d.tolist(),
-        limit.tolist())]
+    parts = [_rectangle_spectrum(x, y, r, w, h, b, f, cap, index_dtype=np.int32)
+             for x, y, r, w, h, b, f in zip(tx.tolist(), ty.tolist(), rho.tolist(),
+                                             lx.tolist(), ly.tolist(), d.tolist(),
+                                             limit.tolist())]
     offsets = np.zeros(len(parts) + 1, dtype=np.int64)
     np.cumsum([len(p[0]) for p in parts], out=offsets[1:])
     frequency = np.concatenate([p[0] for p in parts]) if parts else np.empty(0)

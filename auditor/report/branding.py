@@ -268,7 +268,7 @@ def register_fonts(paths: tuple[str, str, str, str]) -> Fonts:
                 break
     if not chosen[0]:
         return Fonts("Helvetica", "Helvetica-Bold", "Helvetica-Oblique", "Courier", False)
-    names = []
+    names: list[str] = []
     for role, path in zip(("Regular", "Bold", "Italic", "Mono"), chosen, strict=False):
         if not path:
             names.append(names[0] if names else "Helvetica")

@@ -96,13 +96,13 @@ def interference_chart(result: PanelResult, excitations: Sequence[Excitation], *
     findings = result.findings
     severity_of: dict[tuple, str] = {}
     mode_severity: dict[tuple[str, float], str] = {}
-    for f in findings:
-        key = _excitation_key(f.excitation)
+    for finding in findings:
+        key = _excitation_key(finding.excitation)
         if severity_of.get(key) != "conflict":
-            severity_of[key] = f.severity
-        mkey = (f.mode.label, round(f.mode.frequency_hz, 9))
+            severity_of[key] = finding.severity
+        mkey = (finding.mode.label, round(finding.mode.frequency_hz, 9))
         if mode_severity.get(mkey) != "conflict":
-            mode_severity[mkey] = f.severity
+            mode_severity[mkey] = finding.severity
 
     tone_f = [v for e in excitations for v in (e.low_hz, e.high_hz)]
     span = tone_f + [f.mode.frequency_hz for f in findings] + list(result.measured_peaks_hz)
@@ -144,11 +144,11 @@ def interference_chart(result: PanelResult, excitations: Sequence[Excitation], *
         x0 = clip_x(result.assessed_to_hz)
         hatch(d, x0, plot_y0, left + plot_w, plot_y1, style.not_assessed)
 
-    for margin, colour in ((caution_margin, style.caution_window),
-                           (conflict_margin, style.conflict_window)):
+    for margin, window_colour in ((caution_margin, style.caution_window),
+                                  (conflict_margin, style.conflict_window)):
         if not margin or margin <= 0:
             continue
-        shade = Path(fillColor=rgb(colour, 0.4), strokeColor=None, strokeWidth=0)
+        shade = Path(fillColor=rgb(window_colour, 0.4), strokeColor=None, strokeWidth=0)
         for e in excitations:
             lo, hi = e.low_hz * (1 - margin), e.high_hz * (1 + margin)
             if hi < f_low or lo > f_high or lo <= 0:
@@ -161,9 +161,11 @@ def interference_chart(result: PanelResult, excitations: Sequence[Excitation], *
             shade.closePath()
         d.add(shade)
 
-    severity_colour = {"conflict": rgb(style.conflict), "caution": rgb(style.caution)}
+    severity_colour: dict[str | None, Color] = {"conflict": rgb(style.conflict),
+                                               "caution": rgb(style.caution)}
     plain_line = rgb(style.excitation)
     placed: list[tuple[tuple, float, Excitation, Color]] = []
+    tone_rank: dict[str | None, int] = {"conflict": 0, "caution": 1}
     for e in sorted(excitations, key=lambda e: e.low_hz):
         if e.high_hz < f_low or e.low_hz > f_high:
             continue
@@ -181,7 +183,7 @@ def interference_chart(result: PanelResult, excitations: Sequence[Excitation], *
             anchor_x = fx(e.frequency_hz)
             d.add(Line(anchor_x, plot_y0, anchor_x, plot_y1, strokeColor=colour,
                        strokeWidth=weight))
-        rank = ({"conflict": 0, "caution": 1}.get(sev, 2), e.order, e.low_hz)
+        rank = (tone_rank.get(sev, 2), e.order, e.low_hz)
         placed.append((rank, anchor_x, e, colour))
 
     # tone labels above the plot: worst first, each in the lowest free lane, else shortened,
@@ -441,7 +443,8 @@ def tuning_chart(modes: Sequence[Mode], excitations: Sequence[Excitation], *,
             else:
                 d.add(Line(plot_x0, y, plot_x1, y, strokeColor=line_colour, strokeWidth=0.7))
 
-    severity_colour = {"conflict": rgb(style.conflict), "caution": rgb(style.caution)}
+    severity_colour: dict[str | None, Color] = {"conflict": rgb(style.conflict),
+                                               "caution": rgb(style.caution)}
     plain = rgb(style.mode)
     t_grid = np.linspace(low, high, 48)
     ends_y = []
@@ -511,14 +514,14 @@ def tuning_chart(modes: Sequence[Mode], excitations: Sequence[Excitation], *,
 
     # tone labels at the left, inside the plot, thinned where they would touch
     for e in sorted(shown, key=lambda e: (e.order, e.low_hz)):
-        f = e.frequency_hz if f_low <= e.frequency_hz <= f_high else None
-        if f is None:
+        tone_hz = e.frequency_hz if f_low <= e.frequency_hz <= f_high else None
+        if tone_hz is None:
             continue
         words = style.label(f"{e.equipment} {e.source} \u00d7{e.order}")
-        y = fy(f) + 2.5
+        y = fy(tone_hz) + 2.5
         box = text_box(plot_x0 + 2, y, words, style.font, LABEL_SIZE)
         if box[3] > plot_y1:  # no room above the line inside the plot: below it
-            y = fy(f) - 7.5
+            y = fy(tone_hz) - 7.5
             box = text_box(plot_x0 + 2, y, words, style.font, LABEL_SIZE)
         if box[1] >= plot_y0 and space.take(box):
             d.add(Rect(box[0] - 1, box[1], box[2] - box[0] + 2, box[3] - box[1],

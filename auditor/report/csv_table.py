@@ -85,16 +85,16 @@ def panel_values(p: PanelResult, paths: LocalPaths,
     shown only for a remedy that is work on the panel (a "no change needed" remedy carries
     the scheduled tension, which is no proposal); its text always."""
     r = p.remedy
-    change = r is not None and r.work   # "no change needed" carries the scheduled tension
+    work = r if r is not None and r.work else None   # "no change needed" carries the tension
     return {
         "panel": p.panel.panel,
         "zone": p.panel.zone,
         "verdict": p.verdict,
         "assessed_to_hz": _rounded(p.assessed_to_hz, 1),
         "overlap_from_hz": _rounded(p.overlap_from_hz, 1),
-        "remedy_tension_n_per_m": _rounded(r.tension, 1) if change else None,
-        "remedy_tension_y_n_per_m": _rounded(r.tension_y, 1) if change else None,
-        "remedy_bays": r.bays if change else None,
+        "remedy_tension_n_per_m": _rounded(work.tension, 1) if work is not None else None,
+        "remedy_tension_y_n_per_m": _rounded(work.tension_y, 1) if work is not None else None,
+        "remedy_bays": work.bays if work is not None else None,
         "remedy_clear_windows_n_per_m": windows_text(r),
         "remedy": remedy_advice(r),
         "verdict_reason": paths.scrub(p.verdict_reason),

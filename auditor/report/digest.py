@@ -398,11 +398,12 @@ def tension_range(panel: Panel, ruleset: Any) -> tuple[float, float, bool] | Non
     if not (tx > 0 and ty > 0):
         return None
     top = max(tx, ty)
-    rated = panel.max_tension is not None and panel.max_tension > 0
-    high = panel.max_tension / top if rated else float(
+    rating = panel.max_tension if panel.max_tension is not None and panel.max_tension > 0 \
+        else None
+    high = rating / top if rating is not None else float(
         getattr(ruleset, "max_tension_factor", 1.5))
     low = min(float(getattr(ruleset, "min_tension_factor", 0.5)), high)
-    return tx * low, tx * high, rated
+    return tx * low, tx * high, rating is not None
 
 
 def scales_as_root_tension(panel: Panel) -> tuple[bool, str]:

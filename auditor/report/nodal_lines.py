@@ -55,7 +55,9 @@ def level_lines(x: np.ndarray, y: np.ndarray, values: np.ndarray,
         return []
     generator = contour_generator(x, y, settled, name="serial", corner_mask=False,
                                   line_type=LineType.Separate)
-    return [line for line in generator.lines(0.0) if len(line) >= 2]
+    # contourpy types lines() as the union over every LineType; Separate gives (k, 2) arrays
+    lines = generator.lines(0.0)
+    return [line for line in lines if len(line) >= 2]  # type: ignore[misc]  # see above
 
 
 def settle_border_zeros(v: np.ndarray, tiny: float = 1e-9) -> np.ndarray:

@@ -23,7 +23,7 @@ only reads the result; what it says is worked out in ``auditor.report.digest``.
 from __future__ import annotations
 
 import os
-from collections.abc import Callable, Iterable, Sequence
+from collections.abc import Callable, Iterable, Mapping, Sequence
 from datetime import datetime
 from pathlib import Path
 from typing import Any
@@ -363,7 +363,7 @@ class ReportBuilder:
 
     def fit_widths(self, headers: Sequence[str], weights: Sequence[float],
                    samples: dict[str, str] | None = None,
-                   texts: dict[str, Iterable[str]] | None = None) -> list[float]:
+                   texts: Mapping[str, Iterable[str]] | None = None) -> list[float]:
         """Column widths [pt] that split no word.
 
         Weight-0 columns fit their header words or ``samples[header]`` (kept on one line);

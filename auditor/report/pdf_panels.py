@@ -371,7 +371,7 @@ def _panel_si_fields(panel: Panel) -> list[tuple[str, str]]:
     def si(value: float | None, unit: str, digits: int = 4) -> str:
         return "-" if value is None else f"{value:.{digits}g} {unit}"
 
-    out = [("Shape", panel.shape), ("Material", panel.material)]
+    out: list[tuple[str, str]] = [("Shape", panel.shape), ("Material", panel.material)]
     if panel.shape == "rectangle":
         out += [("Width", si(panel.width, "m")), ("Length", si(panel.length, "m"))]
     elif panel.shape == "circle":

@@ -76,7 +76,7 @@ def sketch_mode(basis: ModalBasis, index: int, columns: int = 24, rows: int = 10
     xx, yy = np.meshgrid(x, y)
     points = np.column_stack([xx.ravel(), yy.ravel()])
     inside = np.asarray(basis.region.contains(points), bool)
-    values = np.zeros(points.shape[0])
+    values: np.ndarray = np.zeros(points.shape[0])
     if inside.any():
         shapes = np.asarray(basis.evaluate(points[inside]))
         values[inside] = shapes[:, index] if vector is None else shapes @ np.asarray(vector)
@@ -102,10 +102,10 @@ def _nodal_cells(values: np.ndarray, inside: np.ndarray, peak: float) -> np.ndar
     sign[magnitude <= tiny] = 0.0
     nodal = inside & (sign == 0.0)
     for axis in (0, 1):
-        here = [slice(None), slice(None)]
-        there = [slice(None), slice(None)]
-        here[axis], there[axis] = slice(None, -1), slice(1, None)
-        here, there = tuple(here), tuple(there)
+        here_parts = [slice(None), slice(None)]
+        there_parts = [slice(None), slice(None)]
+        here_parts[axis], there_parts[axis] = slice(None, -1), slice(1, None)
+        here, there = tuple(here_parts), tuple(there_parts)
         change = (sign[here] * sign[there] < 0.0) & inside[here] & inside[there]
         nearer_here = magnitude[here] <= magnitude[there]
         mark_here = np.zeros_like(nodal)

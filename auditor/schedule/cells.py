@@ -411,6 +411,8 @@ def column_reader(column: vocab.Column, unit: str | None,
     """
     unit = unit if unit is not None else column.default_unit
     if column.kind == "quantity":
+        if column.dimension is None:   # the vocabulary gives every quantity its dimension
+            raise ValueError(f"the quantity column {column.name!r} names no dimension")
         return quantity_reader(column.dimension, unit, decimal_comma=decimal_comma)
     if column.kind == "outline":
         return outline_reader(unit)

@@ -9,6 +9,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
+from auditor.model import Severity
 from auditor.schedule.limits import LARGEST_USUAL_SPAN, SMALLEST_USUAL_SPAN
 
 __all__ = ["Note", "fmt", "within", "span_warnings", "range_warning", "RANGE_NOTE", "LIMIT_NOTE"]
@@ -21,7 +22,7 @@ LIMIT_NOTE = "common practice"
 class Note:
     """One finding about a row: ``severity`` "error" rejects it, "warning" keeps it."""
 
-    severity: str
+    severity: Severity
     field: str | None
     message: str
 

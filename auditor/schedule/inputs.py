@@ -91,8 +91,9 @@ def input_location(schedule: Schedule, name: str) -> Path | None:
         schedule names); None for a schedule not read from files.
     """
     for item in schedule.files:
-        if item.path == name and getattr(item, "location", ""):
-            return Path(item.location)
+        location = getattr(item, "location", "")   # a ScheduleFile's; "" for an InputFile
+        if item.path == name and location:
+            return Path(location)
     return None
 
 

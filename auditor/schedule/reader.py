@@ -18,6 +18,7 @@ from auditor.model import (
     Project,
     RowProblem,
     Schedule,
+    Severity,
     SourceRef,
 )
 from auditor.schedule import vocabulary as vocab
@@ -77,7 +78,8 @@ def _texts(values: list[Any]) -> list[tuple[int, str]]:
 
 
 def _classify(values: list[Any]) -> tuple[str, dict[int, tuple[vocab.Column, str | None]]] | None:
-    """Which table a row heads, with the columns it names; None when it heads none."""
+    """Which table (panels or equipment) a row heads, with the columns it names; None when it
+    heads neither (it may still be a project header: :func:`_project_header`)."""
     texts = _texts(values)
     if len(texts) < 2:
         return None
@@ -91,11 +93,18 @@ def _classify(values: list[Any]) -> tuple[str, dict[int, tuple[vocab.Column, str
         has_key = any(col.field == _KEY_COLUMN[table] for col, _ in matched.values())
         if has_key and len(matched) >= 2 and (best is None or len(matched) > len(best[1])):
             best = (table, matched)
-    if best is not None:
-        return best
+    return best
+
+
+def _project_header(values: list[Any]) -> tuple[int, int] | None:
+    """The key and value columns of a 'Key | Value' project header; None when the row is not
+    one."""
+    texts = _texts(values)
+    if len(texts) < 2:
+        return None
     first, second = vocab.header_key(texts[0][1]), vocab.header_key(texts[1][1])
     if first in _PROJECT_KEY_HEADERS and second in _PROJECT_VALUE_HEADERS:
-        return vocab.PROJECT, {texts[0][0]: None, texts[1][0]: None}
+        return texts[0][0], texts[1][0]
     return None
 
 
@@ -112,7 +121,7 @@ class _Collector:
         self.extra: dict[str, tuple[str, str]] = {}
 
     def problem(self, file: str, sheet: str, row: int | None, column: str, message: str,
-                severity: str = "error", text: str = "", record: str = "") -> None:
+                severity: Severity = "error", text: str = "", record: str = "") -> None:
         self.problems.append(RowProblem(file=file, sheet=sheet, row=row, column=column,
                                         message=message, severity=severity, text=text,
                                         record=record))
@@ -264,7 +273,8 @@ class _TableReader:
                      if not (n.severity == "error" and self._column_for(n.field) in failed)]
         for note in notes:
             self.out.problem(file, sheet, row, self._column_for(note.field), note.message,
-                             note.severity, texts.get(note.field, ""), record_id)
+                             note.severity,
+                             "" if note.field is None else texts.get(note.field, ""), record_id)
         if duplicate is not None:
             self.out.problem(file, sheet, row, self.header_of[self.key_field],
                              f"{self.kind} {record_id!r} is already used in "
@@ -276,7 +286,7 @@ class _TableReader:
                 self.out.problem(file, sheet, row, "", "the row could not be read", "error",
                                  "", record_id)
             return
-        if self.table == vocab.PANELS:
+        if isinstance(record, Panel):   # the panels table builds panels
             self.out.panels.append(record)
         else:
             self.out.equipment.append(record)
@@ -369,18 +379,19 @@ def _read_sheet(sheet: RawSheet, file: str, out: _Collector,
         tick(len(rows))  # sheets for people ("Read me", "Notes") are never read as tables
         _warn_cleaned(sheet, file, out, None)
         return []
-    reader = None
+    reader: _TableReader | _ProjectReader | None = None
     start = 0
     headers: list[tuple[int, dict[int, str]]] = []
     for position, (row, values) in enumerate(rows[:HEADER_SEARCH_ROWS]):
         found = _classify(values)
+        project = _project_header(values) if found is None else None
         if found is not None:
             table, matched = found
-            if table == vocab.PROJECT:
-                key_index, value_index = sorted(matched)
-                reader = _ProjectReader(key_index, value_index, sheet, file, out)
-            else:
-                reader = _TableReader(table, row, values, matched, sheet, file, out)
+            reader = _TableReader(table, row, values, matched, sheet, file, out)
+        elif project is not None:
+            key_index, value_index = project
+            reader = _ProjectReader(key_index, value_index, sheet, file, out)
+        if reader is not None:
             headers.append((row, _header_names(values)))
             start = position + 1
             break
@@ -407,7 +418,7 @@ def _read_sheet(sheet: RawSheet, file: str, out: _Collector,
     for row, values in rows[start:]:
         if isinstance(reader, _TableReader) and reader.looks_like_header(values):
             found = _classify(values)
-            if found is not None and found[0] != vocab.PROJECT:
+            if found is not None:
                 reader.finish()
                 reader = _TableReader(found[0], row, values, found[1], sheet, file, out)
                 headers.append((row, _header_names(values)))

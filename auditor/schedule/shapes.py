@@ -13,7 +13,7 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from auditor.model import CircleCutout, PolygonCutout
+from auditor.model import CircleCutout, PolygonCutout, ShapeKind
 from auditor.physics.geometry import circle_to_polygon, outline_problems
 from auditor.schedule.checks import LIMIT_NOTE, Note, fmt, span_warnings, within
 from auditor.schedule.limits import LARGEST_SPAN, SMALLEST_SPAN
@@ -29,7 +29,7 @@ GEOMETRY_FIELDS = {"rectangle": ("width", "length"), "circle": ("diameter",),
                    "polygon": ("outline",)}
 
 
-def infer_shape(values: dict[str, Any]) -> str:
+def infer_shape(values: dict[str, Any]) -> ShapeKind:
     """The shape the sizes given imply: an outline a polygon, a diameter alone a circle."""
     if values.get("outline"):
         return "polygon"

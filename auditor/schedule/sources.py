@@ -29,6 +29,7 @@ import codecs
 import csv
 import hashlib
 import io
+import os
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -170,6 +171,7 @@ def _load_csv(data: bytes, name: str, stem: str) -> tuple[list[RawSheet], list[s
     sample = text[:_SNIFF_CHARS]
     if len(text) > _SNIFF_CHARS and "\n" in sample:
         sample = sample[: sample.rindex("\n")]
+    dialect: type[csv.Dialect] | csv.Dialect
     try:
         dialect = csv.Sniffer().sniff(sample, delimiters=_DELIMITERS)
     except csv.Error:  # rows of unequal length: the delimiter the first line uses most
@@ -202,12 +204,12 @@ def _load_csv(data: bytes, name: str, stem: str) -> tuple[list[RawSheet], list[s
     return [clean_sheet(_check_size(sheet, name))], warnings
 
 
-def load_file(path: str | Path, name: str | None = None) -> LoadedFile:
+def load_file(path: str | os.PathLike[str], name: str | None = None) -> LoadedFile:
     """Read one schedule file into raw sheets, with its SHA-256.
 
     Parameters
     ----------
-    path : str or Path
+    path : str or path-like
         An .xlsx/.xlsm workbook or a .csv/.txt/.tsv file (a zip file of another name is
         tried as a workbook).
     name : str, optional

@@ -22,7 +22,16 @@ from __future__ import annotations
 import math
 from typing import Any, Iterable
 
-from auditor.model import Equipment, Panel, RowProblem, SourceRef
+from auditor.model import (
+    Equipment,
+    EquipmentKind,
+    Material,
+    Panel,
+    PlenumSide,
+    RowProblem,
+    ShapeKind,
+    SourceRef,
+)
 from auditor.schedule.checks import LIMIT_NOTE, RANGE_NOTE, Note, fmt, range_warning, within
 from auditor.schedule.limits import (
     AIR_DENSITY_LIMITS,
@@ -104,10 +113,10 @@ def panel_from_values(
     if not panel_id:
         notes.append(Note("error", "panel", "the row has no panel id"))
 
-    shape = values.get("shape") or infer_shape(values)
+    shape: ShapeKind = values.get("shape") or infer_shape(values)
     geometry_notes(shape, values, notes)
 
-    material = values.get("material") or "film"
+    material: Material = values.get("material") or "film"
     areal_density = values.get("areal_density")
     if areal_density is None:
         notes.append(Note("error", "areal_density", "areal density is required"))
@@ -164,7 +173,7 @@ def panel_from_values(
         notes.append(Note("error", "airflow_resistance",
                           f"airflow resistance must not be negative, not {fmt(airflow)} Pa·s/m"))
 
-    plenum = values.get("plenum_side") or "air"
+    plenum: PlenumSide = values.get("plenum_side") or "air"
     depth = values.get("cavity_depth")
     if depth is not None:
         if within(depth, "cavity_depth", "cavity depth", "m", notes, low=SMALLEST_SPAN,
@@ -191,7 +200,8 @@ def panel_from_values(
                                   f"{fmt(max_tension)} N/m; confirm with the system's "
                                   "manufacturer and a competent installer"))
 
-    if any(n.severity == "error" for n in notes):
+    # areal_density is None only when an error note says so
+    if areal_density is None or any(n.severity == "error" for n in notes):
         return None, notes
     panel = Panel(
         panel=panel_id,
@@ -396,7 +406,7 @@ def equipment_from_values(
     tag = values.get("equipment", "")
     if not tag:
         notes.append(Note("error", "equipment", "the row has no equipment tag"))
-    kind = values.get("kind")
+    kind: EquipmentKind | None = values.get("kind")
     if kind is None:
         notes.append(Note("error", "kind",
                           "kind is required (fan, pump, motor, compressor, transformer, belt, "
@@ -405,7 +415,8 @@ def equipment_from_values(
     if kind is not None:
         _kind_notes(kind, values, notes)
 
-    if any(n.severity == "error" for n in notes):
+    # kind is None only when an error note says so
+    if kind is None or any(n.severity == "error" for n in notes):
         return None, notes
     uses = _KIND_USES[kind] | _ALWAYS
     item = Equipment(
