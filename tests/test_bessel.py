@@ -41,6 +41,31 @@ def test_every_zero_below_a_bound_is_found_once():
     np.testing.assert_allclose(zero, [z for *_, z in expected], rtol=4e-15)
 
 
+def test_slopes_at_the_zeros_match_scipy():
+    # J_{m+1} at each zero of J_m (the scale of a circular membrane's mode shape), from the
+    # recurrence and the Newton step, against scipy.special.jv (a general-purpose reference
+    # library) at the zeros below 256
+    from auditor.physics.bessel import zeros_and_slopes_below
+
+    order, _, zero, slope = zeros_and_slopes_below(256.0)
+    assert len(zero) == 8164
+    np.testing.assert_allclose(slope, jv(order + 1.0, zero), rtol=1e-12)
+
+
+def test_zeros_are_right_when_the_section_is_too_small(monkeypatch):
+    # A section too small for its zeros fails the Newton step's check, and that order is
+    # solved again on its own with a larger one: the zeros still match scipy.special.jn_zeros.
+    import auditor.physics.bessel as bessel
+
+    monkeypatch.setattr(bessel, "_section_size", lambda order, count: count + 2)
+    order, rank, zero, slope = bessel._zeros_below(60.0)
+    for m in (0, 1, 10, 40, 50):
+        mine = zero[order == m]
+        np.testing.assert_allclose(mine, jn_zeros(m, len(mine)), rtol=4e-15)
+        assert mine[-1] <= 60.0 < jn_zeros(m, len(mine) + 1)[-1]
+    np.testing.assert_allclose(slope, jv(order + 1.0, zero), rtol=1e-12)
+
+
 def test_zeros_are_read_only_and_arguments_checked():
     zeros = bessel_zeros(2, 3)
     with pytest.raises(ValueError):

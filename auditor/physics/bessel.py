@@ -9,10 +9,21 @@ the ten thousand zeros below 256), so they are found here as eigenvalues instead
 The squared reciprocals of the zeros are the eigenvalues of an infinite symmetric tridiagonal
 matrix: with ``a_k = m + 2k``, ``4/j_{m,n}²`` are the eigenvalues of the matrix with diagonal
 ``2/((a_k − 1)(a_k + 1))`` and off-diagonal ``1/((a_k + 1)√(a_k (a_k + 2)))``, k = 1, 2, ...
-Its leading N × N section gives the largest eigenvalues (the lowest zeros) to rounding when
-N ≥ 2·count + 40 + m/2 (measured against ``scipy.special.jn_zeros`` for orders 0 to 1000 and
-up to 200 zeros); one Newton step on J_m then polishes each zero and checks it: a step larger
-than 1e-10 of the zero doubles N and solves again.
+Its leading N × N section gives the largest eigenvalues (the lowest zeros) closely enough
+for one Newton step on J_m to polish them when N ≥ 1.7·count + 0.32·m^(2/3)·count^(1/3) + 16
+(the least N that does, measured for orders 0 to 1000 and 3 to 330 zeros, is about
+1.6·count + 10 at m = 0 and grows as m^(2/3)·count^(1/3) with the order, the width of the
+region where J_m turns from growing to oscillating; the rule keeps 4 to 10 % above it). The
+Newton step also checks each zero: a step larger than 1e-10 of the zero doubles N and solves
+again, so the rule sets the cost (the section's eigenvalues take O(N²)), never the result.
+
+Every zero below a bound (:func:`bessel_zeros_below`) is polished at once: J_m and J_{m+1} at
+each order's zeros come from J_0 and J_1 by the upward recurrence, which is stable there,
+since every zero of J_m lies above m + 1 ([3]_ §9.5, [4]_), at a few nanoseconds a value
+against 3 to 5 µs for ``scipy.special.jv`` at orders of tens to hundreds; the same step gives
+J_{m+1} at the polished zero, to second order in the step (J_{m+1}' = J_m − (m+1)/x·J_{m+1}).
+Below 256 (8,164 zeros): 0.23 s → 0.06 s, every zero within 2.2e-16 of
+``scipy.special.jn_zeros``, every J_{m+1} within 1.1e-13 of ``jv``.
 
 References
 ----------
@@ -50,17 +61,43 @@ def _section_zeros(order: int, count: int, size: int) -> np.ndarray:
     return np.sort(2.0 / np.sqrt(values[-count:]))
 
 
-def _first_zeros(order: int, count: int) -> np.ndarray:
-    """:func:`bessel_zeros` without the checks and the memo."""
-    size = 2 * count + 40 + order // 2
+def _section_size(order: int, count: int) -> int:
+    """The leading section whose eigenvalues give the lowest ``count`` zeros of J_m closely
+    enough for one Newton step (see the module docstring)."""
+    return math.ceil(1.7 * count + 0.32 * order ** (2.0 / 3.0) * count ** (1.0 / 3.0)) + 16
+
+
+def _newton_step(order, zeros: np.ndarray, value: np.ndarray, following: np.ndarray):
+    """One Newton step on J_m from ``zeros``, given J_m and J_{m+1} there: the step, the
+    polished zeros and J_{m+1} at them (to second order in the step)."""
+    step = value / (order / zeros * value - following)
+    slope = following - step * (value - (order + 1) / zeros * following)
+    return step, zeros - step, slope
+
+
+def _polished(step: np.ndarray, zeros: np.ndarray) -> bool:
+    """Whether a Newton step confirms the zeros of one order (each step within
+    ``_POLISH_TOLERANCE`` of its zero, the zeros strictly ascending)."""
+    return bool(np.all(np.abs(step) <= _POLISH_TOLERANCE * zeros)
+                and np.all(np.diff(zeros) > 0))
+
+
+def _first_zeros_and_slopes(order: int, count: int, size: int | None = None):
+    """The lowest ``count`` zeros of J_m and J_{m+1} at each, polished with
+    ``scipy.special.jv`` (the section doubled until the Newton step confirms them)."""
+    size = _section_size(order, count) if size is None else size
     while True:
         zeros = _section_zeros(order, count, size)
-        value, following = special.jv(order, zeros), special.jv(order + 1, zeros)
-        step = value / (order / zeros * value - following)
-        zeros = zeros - step
-        if np.all(np.abs(step) <= _POLISH_TOLERANCE * zeros) and np.all(np.diff(zeros) > 0):
-            return zeros
+        step, polished, slope = _newton_step(order, zeros, special.jv(order, zeros),
+                                             special.jv(order + 1, zeros))
+        if _polished(step, polished):
+            return polished, slope
         size *= 2
+
+
+def _first_zeros(order: int, count: int) -> np.ndarray:
+    """:func:`bessel_zeros` without the checks and the memo."""
+    return _first_zeros_and_slopes(order, count)[0]
 
 
 @lru_cache(maxsize=512)
@@ -140,32 +177,65 @@ def zeros_and_slopes_below(x_max: float):
 
 @lru_cache(maxsize=32)
 def _zeros_below_cached(bound: float):
-    order, rank, zero = _zeros_below(bound)
-    slope = special.jv(order + 1.0, zero)
+    order, rank, zero, slope = _zeros_below(bound)
     for array in (order, rank, zero, slope):
         array.setflags(write=False)   # memoised (a pure function of the bound)
     return order, rank, zero, slope
 
 
+def _j_and_next(order: np.ndarray, x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """J_m(x) and J_{m+1}(x) at each point, m its order (``order`` ascending), by the upward
+    recurrence from J_0 and J_1 at every point at once; stable where m + 1 < x ([4]_)."""
+    n, top = len(x), int(order[-1])
+    starts = np.searchsorted(order, np.arange(top + 2))   # the first point of each order
+    value, following = np.empty(n), np.empty(n)
+    rows = [special.j0(x), special.j1(x), np.empty(n)]    # J_{k−1}, J_k, J_{k+1}, rotating
+    value[:starts[1]], following[:starts[1]] = rows[0][:starts[1]], rows[1][:starts[1]]
+    twice_over_x = 2.0 / x
+    for k in range(1, top + 1):
+        a, b = starts[k], starts[k + 1]       # the points of order ≥ k, those of order k
+        before, current, after = rows[(k - 1) % 3], rows[k % 3], rows[(k + 1) % 3]
+        np.multiply(twice_over_x[a:], current[a:], out=after[a:])
+        after[a:] *= k
+        after[a:] -= before[a:]
+        value[a:b], following[a:b] = current[a:b], after[a:b]
+    return value, following
+
+
 def _zeros_below(x_max: float):
-    """The zeros of :func:`bessel_zeros_below` (``x_max`` ≥ 1), computed order by order."""
-    orders, ranks, zeros = [], [], []
-    for m in range(int(math.floor(x_max)) + 1):
-        count = int((x_max - m) / math.pi) + 3
-        found = _first_zeros(m, count)
-        while found[-1] <= x_max:      # never seen; kept so that no zero can be missed
-            count *= 2
-            found = _first_zeros(m, count)
-        found = found[found <= x_max]
-        if len(found) == 0:
+    """The zeros of :func:`bessel_zeros_below` (``x_max`` ≥ 1) and J_{m+1} at each: every
+    order's section solved, then all polished at once (:func:`_j_and_next`); an order the
+    step does not confirm, or whose zeros asked for do not pass ``x_max``, is solved again on
+    its own with ``scipy.special.jv`` (never seen; kept so that no zero can be wrong or
+    missed)."""
+    counts = {m: int((x_max - m) / math.pi) + 3 for m in range(int(math.floor(x_max)) + 1)}
+    estimates = [_section_zeros(m, count, _section_size(m, count))
+                 for m, count in counts.items()]
+    order = np.repeat(np.arange(len(counts)), [len(e) for e in estimates])
+    step, zero, slope = _newton_step(order, np.concatenate(estimates),
+                                     *_j_and_next(order, np.concatenate(estimates)))
+    ends = np.cumsum([len(e) for e in estimates])
+    orders, ranks, zeros, slopes = [], [], [], []
+    for m, count in counts.items():
+        part = slice(ends[m] - count, ends[m])
+        found, at = zero[part], slope[part]
+        if not _polished(step[part], found) or found[-1] <= x_max:
+            found, at = _first_zeros_and_slopes(m, count)
+            while found[-1] <= x_max:
+                count *= 2
+                found, at = _first_zeros_and_slopes(m, count)
+        below = found <= x_max
+        if not np.any(below):
             continue
-        orders.append(np.full(len(found), m, dtype=np.int64))
-        ranks.append(np.arange(1, len(found) + 1, dtype=np.int64))
-        zeros.append(found)
+        orders.append(np.full(int(below.sum()), m, dtype=np.int64))
+        ranks.append(np.arange(1, int(below.sum()) + 1, dtype=np.int64))
+        zeros.append(found[below])
+        slopes.append(at[below])
     if not zeros:
         empty_int = np.empty(0, dtype=np.int64)
-        return empty_int, empty_int, np.empty(0)
-    return np.concatenate(orders), np.concatenate(ranks), np.concatenate(zeros)
+        return empty_int, empty_int, np.empty(0), np.empty(0)
+    return (np.concatenate(orders), np.concatenate(ranks), np.concatenate(zeros),
+            np.concatenate(slopes))
 
 
 def bessel_j_orders(first: int, count: int, x) -> np.ndarray:
