@@ -145,16 +145,51 @@ class QuadraticSpace:
         return np.nan_to_num(distance, nan=0.0, posinf=np.inf), spacing
 
     def nodal_domain_counts(self, fields: np.ndarray, chunk: int = 16) -> tuple[int, ...]:
-        """Nodal domains of each column of ``fields`` (see :meth:`nodal_domains`), ``chunk``
-        columns at a time (the gradients of every column at every element node at once would
-        take tens of megabytes for a hundred modes)."""
+        """Nodal domains of each column of ``fields`` (as :meth:`nodal_domains` counts them),
+        ``chunk`` columns at a time (the gradients of every column at every element node at
+        once would take tens of megabytes for a hundred modes): the columns of a chunk as one
+        graph of ``chunk`` disjoint copies of the node graph, one connected-components pass
+        for all of them."""
         counts: list[int] = []
         for start in range(0, fields.shape[1], chunk):
             part = fields[:, start:start + chunk]
             distance, spacing = self._zero_set_distance(part)
-            counts.extend(self.nodal_domains(part[:, m], distance[:, m], spacing)
-                          for m in range(part.shape[1]))
+            counts.extend(self._domain_counts(part, distance, spacing))
         return tuple(counts)
+
+    def _domain_counts(self, fields: np.ndarray, distance: np.ndarray,
+                       spacing: np.ndarray) -> list[int]:
+        """:meth:`nodal_domains` of each column of ``fields`` (N, k), node m·N + i of the
+        joint graph standing for node i of column m."""
+        n, k = fields.shape
+        scale = np.max(np.abs(fields), axis=0)                             # (k,)
+        # A node whose distance to the zero set, estimated as |φ|/|∇φ|, is under a third of
+        # the local node spacing counts as on a nodal line; this keeps two domains that meet
+        # only at a crossing of nodal lines apart.
+        on_line = (np.abs(fields) <= 1e-8 * scale) | (distance < spacing[:, None] / 3.0)
+        sign = np.where(on_line, 0.0, np.sign(fields))
+        rows, cols = self._sub_edges()
+        keep = (sign[rows] == sign[cols]) & (sign[rows] != 0)               # (E, k)
+        edge, column = np.nonzero(keep)
+        offset = column * n
+        graph = sparse.coo_matrix((np.ones(len(edge)), (offset + rows[edge], offset + cols[edge])),
+                                  shape=(n * k, n * k))
+        _, labels = connected_components(graph, directed=False)
+        signed = (sign != 0).T.ravel()                                      # column-major
+        magnitude = np.abs(fields).T.ravel()
+        peak = np.zeros(labels.max() + 1)
+        np.maximum.at(peak, labels[signed], magnitude[signed])
+        owner = np.zeros(labels.max() + 1, dtype=int)                       # each one column's
+        owner[labels] = np.repeat(np.arange(k), n)
+        counted = peak > 2e-3 * scale[owner]
+        return np.bincount(owner[counted], minlength=k).tolist()
+
+    def _sub_edges(self) -> tuple[np.ndarray, np.ndarray]:
+        """The edges (node pairs) of the 4-to-1 sub-triangulation of every element."""
+        ed = self.element_dofs
+        pairs = ((0, 3), (3, 1), (1, 4), (4, 2), (2, 5), (5, 0), (3, 4), (4, 5), (5, 3))
+        return (np.concatenate([ed[:, a] for a, _ in pairs]),
+                np.concatenate([ed[:, b] for _, b in pairs]))
 
     def nodal_domains(self, field: np.ndarray, distance: np.ndarray, spacing: np.ndarray) -> int:
         """Connected regions of one sign of a field, on the 4-to-1 sub-triangulation of the
@@ -165,27 +200,7 @@ class QuadraticSpace:
         Nodal domains as the connected components of {φ ≠ 0}: R. Courant, D. Hilbert,
         Methods of Mathematical Physics, vol. I (Interscience, 1953), ch. VI §6.
         """
-        scale = np.max(np.abs(field))
-        if scale == 0:
-            return 0
-        # A node whose distance to the zero set, estimated as |φ|/|∇φ|, is under a third of
-        # the local node spacing counts as on a nodal line; this keeps two domains that meet
-        # only at a crossing of nodal lines apart.
-        on_line = (np.abs(field) <= 1e-8 * scale) | (distance < spacing / 3.0)
-        sign = np.where(on_line, 0.0, np.sign(field))
-        ed = self.element_dofs
-        pairs = ((0, 3), (3, 1), (1, 4), (4, 2), (2, 5), (5, 0), (3, 4), (4, 5), (5, 3))
-        rows = np.concatenate([ed[:, a] for a, _ in pairs])
-        cols = np.concatenate([ed[:, b] for _, b in pairs])
-        keep = (sign[rows] == sign[cols]) & (sign[rows] != 0)
-        graph = sparse.coo_matrix(
-            (np.ones(keep.sum()), (rows[keep], cols[keep])), shape=(self.dof_count, self.dof_count)
-        )
-        _, labels = connected_components(graph, directed=False)
-        signed = sign != 0
-        peak = np.zeros(labels.max() + 1)
-        np.maximum.at(peak, labels[signed], np.abs(field[signed]))
-        return int(np.count_nonzero(peak > 2e-3 * scale))
+        return self._domain_counts(field[:, None], distance[:, None], spacing)[0]
 
 
 def quadratic_space(
