@@ -257,23 +257,40 @@ def _peak_kib(pid: int) -> int:
     return 0
 
 
-@pytest.mark.skipif(not Path("/proc/self/task").exists(), reason="needs Linux /proc")
-def test_the_demo_in_seconds_within_its_memory(tmp_path):
-    command = [sys.executable, "-m", "auditor", "demo", "--out", str(tmp_path / "demo")]
+def _demo_run(folder: Path) -> tuple[float, int, dict[int, int]]:
+    """One ``auditor demo --out`` in a fresh interpreter: its wall time [s], the command's
+    peak resident set (VmHWM) [KiB] and that of every process of it, read every 50 ms."""
+    command = [sys.executable, "-m", "auditor", "demo", "--out", str(folder / "demo")]
     start = time.perf_counter()
     process = subprocess.Popen(command, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE,
-                               cwd=tmp_path)
+                               cwd=folder)
     peaks: dict[int, int] = {}
     while process.poll() is None:
         for pid in _descendants(process.pid):
             peaks[pid] = max(peaks.get(pid, 0), _peak_kib(pid))
-        time.sleep(0.02)
+        time.sleep(0.05)
     wall = time.perf_counter() - start
     assert process.returncode == 0, process.stderr.read().decode()[-2000:]
-    largest = max(peaks.values()) / 1024
-    together = sum(peaks.values()) / 1024
-    print(f"\nauditor demo --out: {wall:.1f} s wall on {os.cpu_count()} cores; peak resident "
-          f"memory {peaks.get(process.pid, 0) / 1024:.0f} MB (the command), largest process "
-          f"{largest:.0f} MB, {len(peaks)} processes {together:.0f} MB together")
-    assert wall <= 10.0
+    return wall, peaks.get(process.pid, 0), peaks
+
+
+@pytest.mark.skipif(not Path("/proc/self/task").exists(), reason="needs Linux /proc")
+def test_the_demo_in_seconds_within_its_memory(tmp_path):
+    # Three runs, the median judged: a shared two-core machine's speed drifts by a fifth
+    # from minute to minute (the same code measured 8.0 s to 10.9 s within an hour).
+    runs = []
+    for k in range(3):
+        folder = tmp_path / f"run{k}"
+        folder.mkdir()
+        runs.append(_demo_run(folder))
+    walls = sorted(wall for wall, _, _ in runs)
+    median = walls[1]
+    command_peak = max(command for _, command, _ in runs) / 1024
+    largest = max(max(peaks.values()) for _, _, peaks in runs) / 1024
+    together = max(sum(peaks.values()) for _, _, peaks in runs) / 1024
+    print(f"\nauditor demo --out: {median:.1f} s wall, the median of "
+          f"{', '.join(f'{w:.1f}' for w in walls)} s, on {os.cpu_count()} cores; peak resident "
+          f"memory {command_peak:.0f} MB (the command), largest process {largest:.0f} MB, "
+          f"{together:.0f} MB together")
+    assert median <= 10.0
     assert largest <= 350.0
