@@ -11,6 +11,7 @@ those of the mesh coordinates (the solve's normalised ones in :mod:`auditor.phys
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 from typing import Sequence
 
 import numpy as np
@@ -119,9 +120,11 @@ class QuadraticSpace:
         out[inside] = np.einsum("kj,kjm->km", shape, coefficients[dofs])
         return out
 
-    def _zero_set_distance(self, fields: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """Per node and field: |φ|/|∇φ| (gradient averaged over its elements), and the
-        node spacing (half the longest edge of the smallest element touching the node)."""
+    @cached_property
+    def _node_geometry(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """What :meth:`_zero_set_distance` needs of the mesh alone, made once: ∇N_j at node p
+        of each element (M, 6, 6, 2), the number of elements at each node (N, 1), and the
+        node spacing (N,) (half the longest edge of the smallest element touching it)."""
         ed = self.element_dofs
         a, b, c = (self.nodes[self.triangles[:, i]] for i in range(3))
         det = (b[:, 0] - a[:, 0]) * (c[:, 1] - a[:, 1]) - (b[:, 1] - a[:, 1]) * (c[:, 0] - a[:, 0])
@@ -129,17 +132,24 @@ class QuadraticSpace:
         grad_l1 = np.column_stack((c[:, 1] - a[:, 1], a[:, 0] - c[:, 0])) / det[:, None]
         grad_l2 = np.column_stack((a[:, 1] - b[:, 1], b[:, 0] - a[:, 0])) / det[:, None]
         grad_lambda = np.stack((-grad_l1 - grad_l2, grad_l1, grad_l2), axis=1)
-        # ∇N_j at node p of each element (M, 6, 6, 2), then ∇φ at the element's nodes
         shape_gradients = np.einsum("pjk,mkd->mpjd", _P2_DERIVATIVES, grad_lambda, optimize=True)
-        gradient = np.einsum("mpjd,mjn->mpnd", shape_gradients, fields[ed], optimize=True)
-        magnitude = np.hypot(gradient[..., 0], gradient[..., 1])  # (M, 6, n)
-        total = np.zeros((self.dof_count, fields.shape[1]))
-        np.add.at(total, ed.ravel(), magnitude.reshape(-1, fields.shape[1]))
         count = np.bincount(ed.ravel(), minlength=self.dof_count)[:, None]
         sides = np.stack((b - a, c - b, a - c), axis=1)
         half_edge = 0.5 * np.max(np.hypot(sides[..., 0], sides[..., 1]), axis=1)
         spacing = np.full(self.dof_count, np.inf)
         np.minimum.at(spacing, ed.ravel(), np.repeat(half_edge, 6))
+        return shape_gradients, count, spacing
+
+    def _zero_set_distance(self, fields: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Per node and field: |φ|/|∇φ| (gradient averaged over its elements), and the
+        node spacing (half the longest edge of the smallest element touching the node)."""
+        ed = self.element_dofs
+        shape_gradients, count, spacing = self._node_geometry
+        # ∇φ at the element's nodes (M, 6, n)
+        gradient = np.einsum("mpjd,mjn->mpnd", shape_gradients, fields[ed], optimize=True)
+        magnitude = np.hypot(gradient[..., 0], gradient[..., 1])  # (M, 6, n)
+        total = np.zeros((self.dof_count, fields.shape[1]))
+        np.add.at(total, ed.ravel(), magnitude.reshape(-1, fields.shape[1]))
         with np.errstate(divide="ignore", invalid="ignore"):
             distance = np.abs(fields) / (total / np.maximum(count, 1))
         return np.nan_to_num(distance, nan=0.0, posinf=np.inf), spacing
