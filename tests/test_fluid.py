@@ -244,6 +244,26 @@ def test_deep_sealed_cavity_tends_to_a_rigid_duct():
     assert shallow.frequencies_hz[shallow.labels.index("(2,1)")] < 0.8 * settled[1]
 
 
+def test_a_square_names_its_mixed_degenerate_pairs_once_each():
+    # A square membrane's (m, n) and (n, m) modes share one frequency (Rayleigh, The Theory
+    # of Sound, vol. 1 ch. IX); loading mixes them evenly, and the two loaded modes of a
+    # pair are named one each, (m, n) and (n, m) (common practice), never the same twice.
+    # Porous fabric over a 40 mm sealed cavity, the demo's square ceiling panel.
+    def basis_for(f_limit, max_modes=240):
+        return membrane.rectangular_membrane_basis(600.0, 600.0, 0.25, 1.2, 1.2, f_limit,
+                                                   max_modes=max_modes)
+
+    loaded = fluid.loaded_modes(basis_for, 0.25, fmax=150.0, room_side="air",
+                                plenum_side="sealed", cavity_depth=0.04, material="fabric",
+                                airflow_resistance=700.0)
+    names = list(loaded.labels)
+    assert len(names) > 40
+    assert len(set(names)) == len(names)
+    pairs = [(m, n) for m, n in (tuple(int(v) for v in name.strip("()").split(","))
+                                 for name in names) if m != n]
+    assert sum((n, m) in pairs for m, n in pairs) >= 20   # both of many pairs present
+
+
 def test_porous_limits():
     # Series flow resistance, Z_eff = Z r/(Z + r) (U. Ingard, Notes on Acoustics, 2008): r → ∞
     # is the impervious sheet, r → 0 leaves the panel in vacuo with its structural damping.

@@ -327,13 +327,42 @@ def _in_vacuo(basis: ModalBasis, fmax: float, max_modes: int | None, loss_factor
                      vectors, model, complete)
 
 
+def _dominant_modes(basis_hz: np.ndarray, vectors: np.ndarray) -> np.ndarray:
+    """The basis mode each loaded mode (column of ``vectors``) is named after: its largest
+    coordinate, except within a group of degenerate basis modes (in-vacuo frequencies [Hz]
+    equal to 1e-9, such as a square's (m, n) and (n, m)). The air mixes such a group's modes
+    evenly, and rounding would decide which the mixed modes are named after, often the same
+    one twice; so the loaded modes named after a group take its members one each, the
+    largest share |q|² first. Loaded modes beyond the group's size keep their own largest
+    coordinate: two loaded modes of one name are then physics (a cavity splitting a panel
+    mode in two)."""
+    if vectors.shape[1] == 0:
+        return np.zeros(0, dtype=int)
+    dominant = np.argmax(np.abs(vectors), axis=0)
+    names, counts = np.unique(dominant, return_counts=True)
+    done: set[int] = set()
+    for name in names[counts > 1].tolist():
+        group = np.flatnonzero(np.abs(basis_hz - basis_hz[name]) <= 1e-9 * basis_hz[name])
+        if len(group) < 2 or int(group[0]) in done:
+            continue
+        done.add(int(group[0]))
+        loaded = np.flatnonzero(np.isin(dominant, group))
+        share = np.abs(vectors[np.ix_(group, loaded)]) ** 2          # (members, loaded)
+        for _ in range(min(len(group), len(loaded))):
+            member, mode = np.unravel_index(int(np.argmax(share)), share.shape)
+            dominant[loaded[mode]] = group[member]
+            share[member, :] = -1.0
+            share[:, mode] = -1.0
+    return dominant
+
+
 def _assemble(basis: ModalBasis, frequencies, eta_total, eta_rad, vectors, model,
               complete: float = math.inf) -> LoadedModes:
     """The :class:`LoadedModes` record of modes given by their basis coordinates ``vectors``
     (n_basis, k), with their dominant basis mode and uniform-pressure participation."""
     vectors = np.asarray(vectors, float)
     vectors = vectors.reshape(len(basis), -1) if vectors.size else np.zeros((len(basis), 0))
-    dominant = np.argmax(np.abs(vectors), axis=0) if vectors.shape[1] else np.zeros(0, int)
+    dominant = _dominant_modes(np.asarray(basis.frequencies_hz, float), vectors)
     mean = np.asarray(basis.mean, float)
     norm2 = np.sum(vectors**2, axis=0)
     participation = (mean @ vectors) ** 2 / np.where(norm2 > 0, norm2, 1.0)
