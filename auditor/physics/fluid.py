@@ -334,8 +334,8 @@ def _dominant_modes(basis_hz: np.ndarray, vectors: np.ndarray) -> np.ndarray:
     evenly, and rounding would decide which the mixed modes are named after, often the same
     one twice; so the loaded modes named after a group take its members one each, the
     largest share |q|² first. Loaded modes beyond the group's size keep their own largest
-    coordinate: two loaded modes of one name are then physics (a cavity splitting a panel
-    mode in two)."""
+    coordinate (a cavity may split a panel mode in two), and so do modes mixed with a
+    neighbour that is near but not exactly degenerate (see DEVELOPERS.md, Conventions)."""
     if vectors.shape[1] == 0:
         return np.zeros(0, dtype=int)
     dominant = np.argmax(np.abs(vectors), axis=0)
