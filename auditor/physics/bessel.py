@@ -83,10 +83,10 @@ def _polished(step: np.ndarray, zeros: np.ndarray) -> bool:
                 and np.all(np.diff(zeros) > 0))
 
 
-def _first_zeros_and_slopes(order: int, count: int, size: int | None = None):
+def _first_zeros_and_slopes(order: int, count: int):
     """The lowest ``count`` zeros of J_m and J_{m+1} at each, polished with
     ``scipy.special.jv`` (the section doubled until the Newton step confirms them)."""
-    size = _section_size(order, count) if size is None else size
+    size = _section_size(order, count)
     while True:
         zeros = _section_zeros(order, count, size)
         step, polished, slope = _newton_step(order, zeros, special.jv(order, zeros),
@@ -94,11 +94,6 @@ def _first_zeros_and_slopes(order: int, count: int, size: int | None = None):
         if _polished(step, polished):
             return polished, slope
         size *= 2
-
-
-def _first_zeros(order: int, count: int) -> np.ndarray:
-    """:func:`bessel_zeros` without the checks and the memo."""
-    return _first_zeros_and_slopes(order, count)[0]
 
 
 @lru_cache(maxsize=512)
@@ -126,7 +121,7 @@ def bessel_zeros(order: int, count: int) -> np.ndarray:
     order, count = int(order), int(count)
     if order < 0 or count < 1:
         raise ValueError(f"order must be ≥ 0 and count ≥ 1 (got {order}, {count})")
-    zeros = _first_zeros(order, count)
+    zeros, _ = _first_zeros_and_slopes(order, count)
     zeros.setflags(write=False)
     return zeros
 

@@ -48,6 +48,7 @@ __all__ = [
     "FollowedMode",
     "ModalSystem",
     "assemble_system",
+    "converged",
     "distinct_modes",
     "follow_modes",
     "followed_modes",
@@ -377,18 +378,29 @@ def stacked_forms(left: np.ndarray, matrices: np.ndarray, right: np.ndarray) -> 
     return (left[:, None, :] @ (matrices @ right[:, :, None]))[:, 0, 0]
 
 
+def converged(change: np.ndarray, previous: np.ndarray, tolerance: float) -> np.ndarray:
+    """Whether each of several iterations has converged, from its last relative change and
+    the one before (``np.inf`` on a first step): a change of at most ``tolerance``, or of at
+    most ten times it with the error left estimated below it. An iteration that contracts
+    about a hundredfold a step leaves an error of about c·ρ/(1 − ρ) after a change c, ρ the
+    ratio of its last two changes; this spares the step that would only confirm it."""
+    with np.errstate(all="ignore"):
+        ratio = change / previous
+        left = np.where(np.isfinite(previous) & (ratio < 0.5),
+                        change * ratio / (1.0 - ratio), np.inf)
+    return (change <= tolerance) | ((change <= 10 * tolerance) & (left <= tolerance))
+
+
 def follow_modes(system: ModalSystem, blocks, vectors: np.ndarray, frequencies: np.ndarray,
                  iterations: int = 12) -> list[FollowedMode]:
     """Inverse iteration of each mode (columns of ``vectors``, starting at ``frequencies``
     [Hz]) on the frequency-dependent problem, its frequency made self-consistent (Rayleigh
     functional) at each step: ``x ← (K(f) − λ M(f))⁻¹ M(f) x``, ``λ = xᵀKx / xᵀMx``, until λ
-    changes by at most 1e-8 of itself, or by at most 1e-7 with the error left estimated below
-    1e-8 (the step contracts about a hundredfold; the error left after a change c is about
-    c·ρ/(1 − ρ), ρ the ratio of the last two changes): that spares the step that only
-    confirmed convergence, a ninth of the work on 1,000 panels over sealed cavities, and moves
-    no frequency of the demo project by more than 1.4e-8 (against a run converged to 1e-13,
-    the same modes as before lie beyond 1e-8). The modes of one symmetry block are iterated
-    together (their matrices stacked), each stopping when it has converged."""
+    converges to 1e-8 of itself (:func:`converged`, which stops a step early when the error
+    left is estimated below that: a ninth of the work on 1,000 panels over sealed cavities,
+    moving no frequency of the demo project by more than 1.4e-8 against a run converged to
+    1e-13). The modes of one symmetry block are iterated together (their matrices stacked),
+    each stopping when it has converged."""
     n, count = vectors.shape
     result: list[FollowedMode | None] = [None] * count
     dominant = np.argmax(np.abs(vectors), axis=0)
@@ -418,13 +430,7 @@ def follow_modes(system: ModalSystem, blocks, vectors: np.ndarray, frequencies: 
             x[active] = xa
             lam_new = (stacked_forms(xa, stiffness, xa) / stacked_forms(xa, mass, xa))
             change = np.abs(lam_new - lam[active]) / np.abs(lam_new)
-            # The iteration contracts about a hundredfold a step: the error left in λ after a
-            # change c is about c·ρ/(1 − ρ), ρ the ratio of the last two changes.
-            with np.errstate(all="ignore"):
-                ratio = change / previous[active]     # none on a mode's first step
-                left = np.where(np.isfinite(previous[active]) & (ratio < 0.5),
-                                change * ratio / (1.0 - ratio), np.inf)
-            done = (change <= 1e-8) | ((change <= 1e-7) & (left <= 1e-8))
+            done = converged(change, previous[active], 1e-8)
             previous[active] = change
             lam[active] = lam_new
             f[active] = np.sqrt(np.maximum(lam_new.real, 0.0)) / (2 * np.pi)

@@ -24,39 +24,15 @@ import math
 import numpy as np
 from scipy import linalg
 
-from auditor.physics.coupled import FollowedMode, ModalSystem, solve_stack, stacked_forms
+from auditor.physics.coupled import (
+    FollowedMode,
+    ModalSystem,
+    converged,
+    solve_stack,
+    stacked_forms,
+)
 
 __all__ = ["porous_modes"]
-
-
-def _resistance(system: ModalSystem) -> float:
-    """The sheet's flow resistance rA [kg/s] of a porous panel's system."""
-    if system.resistance is None:   # only a porous panel's system is solved here
-        raise ValueError("the panel is not porous: it has no airflow resistance")
-    return system.resistance
-
-
-def _porous_operator(system: ModalSystem, block, frequency: float):
-    """Stiffness, mass and damping of the panel and air coordinates z = (q, u) of a porous
-    panel, the air's matrices (both sides and the cavity) taken at ``frequency`` [Hz].
-
-    ``(K_s − ω² M_s) q + iω rA (q − u) = 0`` and ``(K_cav − ω² M_air) u − iω rA (q − u) = 0``:
-    the air on both sides moves with u, the sheet's flow resistance r passes the relative
-    velocity. Eliminating u gives the series impedance ``Z r/(Z + r)``.
-    """
-    size = len(block)
-    panel, air_part = slice(0, size), slice(size, 2 * size)
-    k_cav, m_cav = system.cavity_matrices(frequency, block)
-    stiffness = np.zeros((2 * size, 2 * size), dtype=complex)
-    stiffness[panel, panel] = (system.stiffness[np.ix_(block, block)]
-                               * (1 + 1j * system.eta_structure))
-    stiffness[air_part, air_part] = k_cav
-    mass = np.zeros((2 * size, 2 * size))
-    mass[panel, panel] = system.structural_mass * np.eye(size)
-    mass[air_part, air_part] = system.air_mass[np.ix_(block, block)] + m_cav
-    eye = _resistance(system) * np.eye(size)
-    damping = np.block([[eye, -eye], [-eye, eye]])
-    return stiffness, mass, damping
 
 
 def _porous_roots(part: _Block, frequency: float):
@@ -116,7 +92,9 @@ class _Block:
                                 * (1 + 1j * system.eta_structure))        # (n,)
         self.panel_mass = system.structural_mass                           # ρs A
         self.air_mass = system.air_mass[np.ix_(block, block)]               # (n, n)
-        self.r = _resistance(system)
+        if system.resistance is None:   # only a porous panel's system is solved here
+            raise ValueError("the panel is not porous: it has no airflow resistance")
+        self.r = system.resistance
 
     def air_matrices(self, frequencies_hz: np.ndarray):
         """The air's stiffness and total mass at each frequency [Hz], (k, n, n)."""
@@ -160,10 +138,8 @@ def _refine_porous(part: _Block, vectors: np.ndarray, roots: np.ndarray,
     iteration does not settle within 25 % of it.
 
     A root is followed to 5e-9 of itself, the accuracy of every other followed mode (1e-8 in
-    ω², :func:`auditor.physics.coupled.follow_modes`): it stops once it changes by at most
-    that, or by at most ten times that with the error left estimated below it (the step
-    contracts about a hundredfold; after a change c the error left is about c·ρ/(1 − ρ), ρ
-    the ratio of the last two changes).
+    ω², :func:`auditor.physics.coupled.follow_modes`), with the same test of convergence
+    (:func:`auditor.physics.coupled.converged`).
 
     All roots of one block at once (``vectors`` (2n, k), ``roots`` (k,)): each iteration
     takes the air's matrices at every root's frequency and solves them as one stack
@@ -204,11 +180,7 @@ def _refine_porous(part: _Block, vectors: np.ndarray, roots: np.ndarray,
         z[:, index] = y.T
         omega[index] = new
         change = np.abs(new - previous) / np.abs(new)
-        with np.errstate(all="ignore"):
-            ratio = change / last[index]     # none on a root's first step
-            left = np.where(np.isfinite(last[index]) & (ratio < 0.5),
-                            change * ratio / (1.0 - ratio), np.inf)
-        done = (change <= _FOLLOWED_TO) | ((change <= 10 * _FOLLOWED_TO) & (left <= _FOLLOWED_TO))
+        done = converged(change, last[index], _FOLLOWED_TO)
         last[index] = change
         active = index[~done]
     settled = (omega.real > 0) & (np.abs(omega - start) <= 0.25 * np.abs(start))

@@ -155,7 +155,7 @@ class QuadraticSpace:
         return np.nan_to_num(distance, nan=0.0, posinf=np.inf), spacing
 
     def nodal_domain_counts(self, fields: np.ndarray, chunk: int = 16) -> tuple[int, ...]:
-        """Nodal domains of each column of ``fields`` (as :meth:`nodal_domains` counts them),
+        """Nodal domains of each column of ``fields`` (see :meth:`_domain_counts`),
         ``chunk`` columns at a time (the gradients of every column at every element node at
         once would take tens of megabytes for a hundred modes): the columns of a chunk as one
         graph of ``chunk`` disjoint copies of the node graph, one connected-components pass
@@ -169,8 +169,15 @@ class QuadraticSpace:
 
     def _domain_counts(self, fields: np.ndarray, distance: np.ndarray,
                        spacing: np.ndarray) -> list[int]:
-        """:meth:`nodal_domains` of each column of ``fields`` (N, k), node m·N + i of the
-        joint graph standing for node i of column m."""
+        """Nodal domains of each column of ``fields`` (N, k): connected regions of one sign,
+        on the 4-to-1 sub-triangulation of the quadratic element's nodes, node m·N + i of
+        the joint graph standing for node i of column m.
+
+        References
+        ----------
+        Nodal domains as the connected components of {φ ≠ 0}: R. Courant, D. Hilbert,
+        Methods of Mathematical Physics, vol. I (Interscience, 1953), ch. VI §6.
+        """
         n, k = fields.shape
         scale = np.max(np.abs(fields), axis=0)                             # (k,)
         # A node whose distance to the zero set, estimated as |φ|/|∇φ|, is under a third of
@@ -178,7 +185,7 @@ class QuadraticSpace:
         # only at a crossing of nodal lines apart.
         on_line = (np.abs(fields) <= 1e-8 * scale) | (distance < spacing[:, None] / 3.0)
         sign = np.where(on_line, 0.0, np.sign(fields))
-        rows, cols = self._sub_edges()
+        rows, cols = self._sub_edges
         keep = (sign[rows] == sign[cols]) & (sign[rows] != 0)               # (E, k)
         edge, column = np.nonzero(keep)
         offset = column * n
@@ -194,23 +201,14 @@ class QuadraticSpace:
         counted = peak > 2e-3 * scale[owner]
         return np.bincount(owner[counted], minlength=k).tolist()
 
+    @cached_property
     def _sub_edges(self) -> tuple[np.ndarray, np.ndarray]:
-        """The edges (node pairs) of the 4-to-1 sub-triangulation of every element."""
+        """The edges (node pairs) of the 4-to-1 sub-triangulation of every element, made
+        once."""
         ed = self.element_dofs
         pairs = ((0, 3), (3, 1), (1, 4), (4, 2), (2, 5), (5, 0), (3, 4), (4, 5), (5, 3))
         return (np.concatenate([ed[:, a] for a, _ in pairs]),
                 np.concatenate([ed[:, b] for _, b in pairs]))
-
-    def nodal_domains(self, field: np.ndarray, distance: np.ndarray, spacing: np.ndarray) -> int:
-        """Connected regions of one sign of a field, on the 4-to-1 sub-triangulation of the
-        quadratic element's nodes.
-
-        References
-        ----------
-        Nodal domains as the connected components of {φ ≠ 0}: R. Courant, D. Hilbert,
-        Methods of Mathematical Physics, vol. I (Interscience, 1953), ch. VI §6.
-        """
-        return self._domain_counts(field[:, None], distance[:, None], spacing)[0]
 
 
 def quadratic_space(
