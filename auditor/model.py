@@ -264,6 +264,9 @@ class Mode:
     label : str
         "(m,n)" on a rectangle (m half-waves along the width, n along the length); "(m,n)" on a
         circle (m nodal diameters, n−1 interior nodal circles); "#k" on other outlines.
+        A loaded mode takes the label of the in-vacuo mode that dominates it; where an
+        earlier mode of the panel has that label too (a cavity split, or near-degenerate
+        modes mixed by the air), it is marked b, c, …: "(0,5)", then "(0,5)b".
     frequency_hz : float  [Hz]
         Natural frequency (with air loading where the loading model applies).
     multiplicity : int

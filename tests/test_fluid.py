@@ -264,6 +264,32 @@ def test_a_square_names_its_mixed_degenerate_pairs_once_each():
     assert sum((n, m) in pairs for m, n in pairs) >= 20   # both of many pairs present
 
 
+def test_a_cavity_split_is_named_twice_and_told_apart():
+    # A sealed cavity couples a membrane's axisymmetric modes through its uniform pressure
+    # (Dowell, Gorman & Smith, J. Sound Vib. 52, 1977), and can split one panel mode in two
+    # loaded modes that both have it as their largest part: the demo's 2.4 m film disc over a
+    # 300 mm plenum gives two such modes of (0,5). Both keep the name, in ascending frequency
+    # the plain one first and the second marked "b", so that the two can be told apart in a
+    # finding, a shape drawing or a tap-test fit. Their in-vacuo frequency is that of (0,5):
+    # f = j₀,₅ √(T/ρs)/(2πa), j₀,₅ = 14.9309177 (Abramowitz & Stegun, Table 9.5).
+    tension, density, radius = 900.0, 0.23, 1.2
+
+    def basis_for(f_limit, max_modes=240):
+        return membrane.circular_membrane_basis(tension, density, radius, f_limit,
+                                                max_modes=max_modes)
+
+    loaded = fluid.loaded_modes(basis_for, density, fmax=120.0, room_side="air",
+                                plenum_side="sealed", cavity_depth=0.3, material="film")
+    names = list(loaded.labels)
+    assert len(set(names)) == len(names)
+    first, second = names.index("(0,5)"), names.index("(0,5)b")
+    assert first < second
+    assert loaded.dominant[first] == loaded.dominant[second]
+    f05 = 14.9309177 * math.sqrt(tension / density) / (2 * math.pi * radius)
+    assert loaded.in_vacuo_hz[[first, second]] == pytest.approx([f05, f05], rel=1e-7)
+    assert special.jn_zeros(0, 5)[-1] == pytest.approx(14.9309177, rel=1e-8)
+
+
 def test_porous_limits():
     # Series flow resistance, Z_eff = Z r/(Z + r) (U. Ingard, Notes on Acoustics, 2008): r → ∞
     # is the impervious sheet, r → 0 leaves the panel in vacuo with its structural damping.

@@ -210,6 +210,35 @@ def names_at(names: Sequence, indices) -> Sequence:
     return tuple(names[i] for i in np.asarray(indices, dtype=int).tolist())
 
 
+def mode_names(labels: Sequence[str], indices) -> Sequence[str]:
+    """The names of a panel's modes, each named after its basis mode ``indices[k]`` (the
+    modes in ascending frequency), no two alike.
+
+    Two loaded modes can be named after one basis mode: a sealed cavity splits a panel mode
+    in two, and the air mixes modes a fraction of a per cent apart. The first such mode keeps
+    the basis mode's label; the second is marked ``b``, the third ``c``, and so on ("(0,5)",
+    then "(0,5)b"), so that a mode keeps its name whether or not a later one shares it (the
+    k-th mode of a label stays the k-th across tensions). Distinct indices give
+    :func:`names_at` unchanged (made when read)."""
+    indices = np.asarray(indices, dtype=int)
+    named = names_at(labels, indices)
+    if len(np.unique(indices)) == len(indices):
+        return named
+    order = np.argsort(indices, kind="stable")
+    ordered = indices[order]
+    run_start = np.concatenate([[True], ordered[1:] != ordered[:-1]])
+    first = np.maximum.accumulate(np.where(run_start, np.arange(len(ordered)), 0))
+    occurrence = np.empty(len(indices), dtype=int)
+    occurrence[order] = np.arange(len(ordered)) - first
+    return tuple(name if k == 0 else name + _repeat_mark(k)
+                 for name, k in zip(named, occurrence.tolist()))
+
+
+def _repeat_mark(k: int) -> str:
+    """The mark of the (k+1)-th mode of one name: b, c, …, z, then 27, 28, …"""
+    return chr(ord("a") + k) if k < 26 else f"#{k + 1}"
+
+
 #: The family of a basis's shapes: analytic (integrated in closed form), or None for shapes
 #: known only numerically (finite elements), which the loading step integrates by points.
 ShapeFamily = RectangleShapes | DiscShapes | None

@@ -73,7 +73,7 @@ from typing import Callable
 import numpy as np
 
 from auditor.physics.added_mass import baffled_added_mass
-from auditor.physics.basis import ModalBasis, complete_below, names_at
+from auditor.physics.basis import ModalBasis, complete_below, mode_names
 from auditor.physics.basis_reach import choose_basis_limit, coupled_reach, loading_basis
 from auditor.physics.cache import SolveCache
 from auditor.physics.cavity import cavity_dynamic_mass, mass_air_mass_frequency
@@ -134,7 +134,8 @@ class LoadedModes:
     multiplicity : ndarray of int (k,)
         Of the dominant basis mode (2 for a cos/sin pair on a disc).
     labels : tuple of str (k,)
-        Label of the dominant basis mode.
+        Label of the dominant basis mode, marked b, c, … on the second and later modes of
+        one dominant mode (:func:`auditor.physics.basis.mode_names`; ascending frequency).
     basis : ModalBasis
         The in-vacuo basis (``vectors`` are its coordinates).
     model : str
@@ -374,7 +375,7 @@ def _assemble(basis: ModalBasis, frequencies, eta_total, eta_rad, vectors, model
         vectors=vectors,
         participation=participation,
         multiplicity=np.asarray(basis.multiplicity, int)[dominant],
-        labels=tuple(names_at(basis.labels, dominant)),
+        labels=tuple(mode_names(basis.labels, dominant)),
         basis=basis,
         model=model,
         radiation_loss_factor=np.asarray(eta_rad, float),

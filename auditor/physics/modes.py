@@ -23,7 +23,7 @@ import numpy as np
 
 from auditor.model import NO_SOURCE, CircleCutout, Mode, Panel, ShapeGrid, SourceRef
 from auditor.physics import fem, fluid, membrane, uncoupled
-from auditor.physics.basis import ModalBasis, complete_below, names_at
+from auditor.physics.basis import ModalBasis, complete_below, mode_names, names_at
 from auditor.physics.basis_reach import REACH_MASS_MARGIN
 from auditor.physics.cache import SolveCache
 from auditor.physics.geometry import outline_problems, signed_area
@@ -171,15 +171,16 @@ class PanelModes:
 
     @cached_property
     def labels(self) -> tuple[str, ...]:
-        """Each mode's label (its basis mode's)."""
-        return tuple(names_at(self.basis.labels, self.index))
+        """Each mode's label: its basis mode's, marked when an earlier mode has it too
+        (:func:`auditor.physics.basis.mode_names`)."""
+        return tuple(mode_names(self.basis.labels, self.index))
 
     @cached_property
     def modes(self) -> ModeList:
         """The modes as a sequence of ``Mode`` records, ascending in frequency (each record
         made when read)."""
         basis = self.basis
-        return ModeList(names_at(basis.labels, self.index),
+        return ModeList(mode_names(basis.labels, self.index),
                         names_at(basis.nodal_lines, self.index),
                         self.frequency_hz, np.asarray(basis.multiplicity)[self.index],
                         self.participation, self.loss_factor, self.in_vacuo_hz, self.index)
