@@ -185,14 +185,14 @@ def _tasks(works: Sequence[TypeWork], jobs: int) -> list[tuple[TypeWork, ...]]:
 def _pool(jobs: int) -> ProcessPoolExecutor:
     """A process pool of ``jobs`` workers (each task makes its own solve cache).
 
-    Workers start from a clean server process (``forkserver``, with this module and the
-    caller's main module loaded once in it, :func:`worker_context`) where the system has one, else
-    from fresh interpreters (``spawn``); never as forks of the caller, which may be running
-    threads (a progress bar) and whose linear-algebra library may have started its own
-    threads (``auditor`` asks for one thread in the environment when it is imported, which
-    binds a process only if numpy loads after; the server, started later, inherits that
-    environment). Like any use of :mod:`multiprocessing` that starts processes this way, a
-    script that audits at its top level must do it under ``if __name__ == "__main__":``.
+    Workers start from a clean server process (``forkserver``, with this module loaded once
+    in it, :func:`worker_context`) where the system has one, else from fresh interpreters
+    (``spawn``); never as forks of the caller, which may be running threads (a progress bar)
+    and whose linear-algebra library may have started its own threads (``auditor`` asks for
+    one thread in the environment when it is imported, which binds a process only if numpy
+    loads after; the server, started later, inherits that environment). Like any use of
+    :mod:`multiprocessing` that starts processes this way, a script that audits at its top
+    level must do it under ``if __name__ == "__main__":``.
     """
     return ProcessPoolExecutor(max_workers=jobs, mp_context=worker_context())
 

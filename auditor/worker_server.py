@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import multiprocessing
 import os
+import sys
 
 __all__ = ["resolved_jobs", "start_worker_server", "worker_context"]
 
@@ -30,12 +31,21 @@ def resolved_jobs(jobs: int | None) -> int:
 
 
 def worker_context():
-    """Where workers start: a clean server process (``forkserver``, with ``auditor.judging``
-    and the caller's main module loaded once in it, so that no worker imports them again)
-    where the system has one, else fresh interpreters (``spawn``)."""
+    """Where workers start: a clean server process (``forkserver``) where the system has one,
+    else fresh interpreters (``spawn``).
+
+    The server loads ``auditor.judging`` once, so that no worker imports it again. A worker
+    still runs the caller's main script again, as every worker of :mod:`multiprocessing`
+    does (``"__main__"`` in the preload list asks the server to load it, but Python 3.11 to
+    3.13 pass the server no path to it, so that does nothing there); for the ``auditor``
+    command that script only imports ``auditor.cli``, which the server then loads as well
+    (about 0.05 s saved in each worker)."""
     if "forkserver" in multiprocessing.get_all_start_methods():
         context = multiprocessing.get_context("forkserver")
-        context.set_forkserver_preload(["__main__", "auditor.judging"])
+        preload = ["__main__", "auditor.judging"]
+        if "auditor.cli" in sys.modules:
+            preload.append("auditor.cli")
+        context.set_forkserver_preload(preload)
         return context
     return multiprocessing.get_context("spawn")
 
