@@ -11,6 +11,7 @@ per metre, hertz. Units exist only at the edges (``auditor.units``).
 
 from __future__ import annotations
 
+import math
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 from typing import Any, Literal
@@ -407,6 +408,50 @@ class Excitation:
 
 
 @dataclass(frozen=True)
+class TensionCurves:
+    """A panel's modes followed over the range of tension a remedy searched, on the full model
+    (what the tuning chart draws).
+
+    Parameters
+    ----------
+    tension : tuple of float  [N/m]
+        Tension x at which the modes are given, ascending: the ends of the range, the
+        scheduled tension and any tension the search solved (tension y in proportion).
+    labels : tuple of str
+        The modes followed (each as at the scheduled tension).
+    frequency_hz : tuple of tuple of float  [Hz]
+        ``frequency_hz[k][j]``: mode ``labels[k]`` at ``tension[j]``; solved there, or where a
+        mode was not found at a tension, filled as the search fills it (f² linear in
+        tension between the tensions it was solved at, ∝ tension beyond).
+    exact : bool
+        True when the frequencies scale exactly as √T (no part of the stiffness independent
+        of tension): then they were solved at the scheduled tension and scaled.
+    """
+
+    tension: tuple[float, ...]
+    labels: tuple[str, ...]
+    frequency_hz: tuple[tuple[float, ...], ...]
+    exact: bool = False
+
+    def frequency_at(self, label: str, tension: float) -> float | None:
+        """Mode ``label`` at ``tension`` [N/m]: f² linear in tension between the given
+        tensions, ∝ tension beyond them (as the remedy search interpolates); None for a
+        mode not followed."""
+        try:
+            row = self.frequency_hz[self.labels.index(label)]
+        except ValueError:
+            return None
+        t = self.tension
+        if len(t) == 1 or tension <= t[0]:
+            return row[0] * math.sqrt(max(tension, 0.0) / t[0])
+        if tension >= t[-1]:
+            return row[-1] * math.sqrt(tension / t[-1])
+        j = max(k for k in range(len(t) - 1) if t[k] <= tension)
+        w = (tension - t[j]) / (t[j + 1] - t[j])
+        return math.sqrt((1.0 - w) * row[j] ** 2 + w * row[j + 1] ** 2)
+
+
+@dataclass(frozen=True)
 class Remedy:
     """One panel's remedy: the tension, or the support spacing, that clears its conflicts.
 
@@ -436,6 +481,10 @@ class Remedy:
         The full model's lowest natural frequency at the proposed tension, or of one bay at
         the scheduled tension: what a commissioning tap test should find after the work.
         None when no work is proposed.
+    curves : TensionCurves or None
+        The modes that matter (in findings, the fundamental, and those driven at the rule
+        set's participation threshold or more), followed over the range searched, when a
+        tension search ran.
     """
 
     tension: float | None
@@ -447,6 +496,7 @@ class Remedy:
     verified: bool = False
     cautions: int = 0
     fundamental_hz: float | None = None
+    curves: TensionCurves | None = None
 
 
 @dataclass(frozen=True, slots=True)

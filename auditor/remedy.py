@@ -40,7 +40,8 @@ The proposed tension is placed inside its window (at least ``INSET`` from the wi
 where it is wide enough, else in its middle), rounded to three significant figures (a
 tension an installer can set), and **verified**: the full model is solved again at that
 tension and judged exactly as the audit judges; a failure adds that solution to the grid
-and the search runs again (``VERIFY_ATTEMPTS`` times).
+and the search runs again (``VERIFY_ATTEMPTS`` times). The modes that matter, followed over
+every tension solved, go with the remedy (``Remedy.curves``) for the report's tuning chart.
 
 Changing the tension of a stretched system changes the energy stored in it: every remedy that
 is work on the panel (``Remedy.work``) goes with ``SAFETY_NOTE``.
@@ -80,7 +81,7 @@ from auditor.judgement.tuning import (
     union,
 )
 from auditor.judgement.verdict import overlap_frequency_hz
-from auditor.model import Excitation, Panel, Remedy
+from auditor.model import Excitation, Panel, Remedy, TensionCurves
 from auditor.rules import RuleSet
 
 __all__ = ["panel_remedy", "remedy_advice", "bay_panel", "scales_exactly", "RemedyMemo",
@@ -411,8 +412,10 @@ def panel_remedy(panel: Panel, excitations: Sequence[Excitation] | ExcitationArr
     rated = panel.max_tension if top > 0 else None      # the rated maximum, when given
     high = rated / top if rated is not None else ruleset.max_tension_factor
     low = min(ruleset.min_tension_factor, high)
-    search = _search(solver, low, high, scales_exactly(panel))
+    exact = scales_exactly(panel)
+    search = _search(solver, low, high, exact)
     windows = tuple((a * tx, b * tx) for a, b in search.windows)
+    curves = _curves(solver, low, high, now, base, exact)
     if rated is not None:
         ceiling = f"rated maximum {_t(rated)} N/m"
     else:
@@ -420,7 +423,7 @@ def panel_remedy(panel: Panel, excitations: Sequence[Excitation] | ExcitationArr
                    f"{ruleset.max_tension_factor:g} × scheduled = {_t(top * high)} N/m")
     if search.chosen is None or search.verified is None:   # both are set, or neither
         return _bays_or_statement(solver, search, panel, tail, now, low=low, high=high,
-                                  windows=windows)
+                                  windows=windows, curves=curves)
     s, grades = search.chosen, search.verified
     state = solver.state(s)
     plural = "" if panel.isotropic else "s"
@@ -434,7 +437,29 @@ def panel_remedy(panel: Panel, excitations: Sequence[Excitation] | ExcitationArr
         text += " No higher tension in range clears it: check the system maker's minimum tension."
     return Remedy(tension=_snapped(tx * s), bays=None, tension_y=_snapped(ty * s), text=text,
                   work=True, clear_windows=windows, verified=True, cautions=grades.cautions,
-                  fundamental_hz=_lowest_hz(state))
+                  fundamental_hz=_lowest_hz(state), curves=curves)
+
+
+def _curves(solver: _Solver, low: float, high: float, now: PairGrades, base: _State,
+            exact: bool) -> TensionCurves:
+    """The modes that matter followed over the range searched, as the search followed them
+    (for the tuning chart): those in findings at the scheduled tension, the fundamental, and
+    those driven at the rule set's participation threshold or more somewhere along the
+    range; their frequencies at the range's ends and at every tension solved."""
+    states = solver.states
+    limit = min([solver.limit_hz] + [st.complete_to_hz for st in states])
+    tracks = solver.tracks(low, high, limit)
+    scheduled = set(base.labels)
+    named = {base.labels[int(k)] for k in now.mode.tolist()}
+    if base.labels:
+        named.add(base.labels[0])
+    keep = [k for k, label in enumerate(tracks.labels) if label in scheduled and (
+        label in named or tracks.participation[k] >= solver.ruleset.participation_threshold)]
+    tension = solver.panel.tension_x
+    frequency = np.sqrt(tracks.f2[keep])
+    return TensionCurves(tuple(float(s * tension) for s in tracks.scales),
+                         tuple(tracks.labels[k] for k in keep),
+                         tuple(tuple(row) for row in frequency.tolist()), exact)
 
 
 def _lowest_hz(state: _State) -> float | None:
@@ -445,13 +470,14 @@ def _lowest_hz(state: _State) -> float | None:
 
 def _bays_or_statement(solver: _Solver, search: _Search | None, panel: Panel, tail: str,
                        now: PairGrades, *, low: float = 1.0, high: float = 1.0,
-                       windows: tuple = ()) -> Remedy:
+                       windows: tuple = (), curves: TensionCurves | None = None) -> Remedy:
     """The fewest equal bays that clear the conflicts, or what blocks every option."""
     if search is None:
         head = "The panel has no scheduled tension to change"
     else:
-        head = (f"No tension from {_t(min(panel.tension_x, panel.tension_y) * low)} to "
-                f"{_t(max(panel.tension_x, panel.tension_y) * high)} N/m clears its conflicts ("
+        both = "" if panel.isotropic else " (both tensions scaled together)"
+        head = (f"No tension from {_tensions(panel, low)} to {_tensions(panel, high)} N/m"
+                f"{both} clears its conflicts ("
                 f"{_blockers(search, solver.excitations, low, high)})")
     last = None
     for k in range(2, solver.ruleset.max_bays + 1):
@@ -473,7 +499,7 @@ def _bays_or_statement(solver: _Solver, search: _Search | None, panel: Panel, ta
                 text += " The bays were assessed without the panel's cut-outs."
             return Remedy(tension=None, bays=k, text=text + tail, work=True,
                           clear_windows=windows, verified=True, cautions=grades.cautions,
-                          fundamental_hz=_lowest_hz(state))
+                          fundamental_hz=_lowest_hz(state), curves=curves)
     if last is None:
         rest = "support changes for this outline need the panel designer."
     else:
@@ -484,4 +510,4 @@ def _bays_or_statement(solver: _Solver, search: _Search | None, panel: Panel, ta
         rest = (f"nor does a split into up to {k} equal bays ({names} still conflict"
                 f"{'s' if len(tones) == 1 else ''} with {k} bays); refer to the panel designer.")
     return Remedy(tension=None, bays=None, clear_windows=windows, cautions=now.cautions,
-                  text=f"{head}; {rest}{tail}")
+                  text=f"{head}; {rest}{tail}", curves=curves)

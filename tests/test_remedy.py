@@ -261,3 +261,49 @@ def test_the_remedy_carries_the_fundamental_a_commissioning_tap_test_should_find
     r = panel_remedy(long, [band], rules, membrane, limit_hz=LIMIT)
     assert r.bays == 3
     assert r.fundamental_hz == pytest.approx(f11(bay_panel(long, 3)), rel=1e-12)
+
+
+def test_the_remedy_carries_its_modes_followed_over_tension_for_the_tuning_chart():
+    # On a model whose f² is linear in tension, the prestressed plate with an added mass
+    # (ω²(ρs + μ) = T k² + D k⁴: Leissa, Vibration of Plates, NASA SP-160, 1969; from
+    # memory), the curves the remedy hands the tuning chart (solved at the ends of the range
+    # and at each tension the search solved, f² linear in between) are the model itself at
+    # every tension of the range, and flatter than √T (the bending part does not scale).
+    p = panel(width=0.8, length=0.6, max_tension=1000.0, plenum_side="air")
+    exc = fan_line(stiff_loaded(p)[0].frequency_hz * 1.03)
+    r = panel_remedy(p, [exc], STANDARD, stiff_loaded, limit_hz=LIMIT)
+    curves = r.curves
+    assert curves is not None and not curves.exact
+    assert curves.tension[0] == pytest.approx(250.0) and curves.tension[-1] == pytest.approx(
+        1000.0)
+    assert "(1,1)" in curves.labels
+    for t in np.linspace(250.0, 1000.0, 13):
+        at = {m.label: m.frequency_hz for m in stiff_loaded(
+            dataclasses.replace(p, tension_x=t, tension_y=t))}
+        for label in curves.labels:
+            assert curves.frequency_at(label, t) == pytest.approx(at[label], rel=1e-9)
+    f0 = stiff_loaded(p)[0].frequency_hz
+    assert curves.frequency_at("(1,1)", 250.0) > f0 * math.sqrt(250.0 / p.tension_x) * 1.01
+    # an ideal membrane: Rayleigh's f11 = ½√(T/ρs)·√(1/a² + 1/b²) at every tension
+    # (Rayleigh, The Theory of Sound, vol. I, §194), and the curves say they scale exactly
+    p = panel(width=0.8, length=0.6, max_tension=1000.0)
+    exc = fan_line(f11(p) * 1.03)
+    r = panel_remedy(p, [exc], STANDARD, membrane, limit_hz=LIMIT)
+    assert r.curves is not None and r.curves.exact
+    for t in (250.0, 430.0, 777.0, 1000.0):
+        assert r.curves.frequency_at("(1,1)", t) == pytest.approx(
+            f11(dataclasses.replace(p, tension_x=t, tension_y=t)), rel=1e-12)
+
+
+def test_no_tension_statement_of_an_orthotropic_panel_names_both_tensions():
+    # Both tensions are scaled together, so the range searched is stated for both.
+    rules = dataclasses.replace(STANDARD, min_tension_factor=0.95)
+    p = panel(width=1.2, tension_x=500.0, tension_y=250.0, max_tension=520.0)
+    f_full = membrane(p)[0].frequency_hz
+    f_half = membrane(dataclasses.replace(p, width=0.6))[0].frequency_hz
+    exc = Excitation("AHU-4", "fan", "blade-pass", 1, "fan blade-pass ×1",
+                     math.sqrt(f_full * f_half), (f_full, f_half))
+    r = panel_remedy(p, [exc], rules, membrane, limit_hz=LIMIT)
+    assert r.tension is None
+    assert ("No tension from 475 × 238 to 520 × 260 N/m (both tensions scaled together) "
+            "clears its conflicts") in r.text

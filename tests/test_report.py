@@ -34,7 +34,7 @@ from reportlab.graphics.shapes import Path
 from scipy.special import jn_zeros
 
 from auditor.atomic import write_atomic
-from auditor.model import Excitation, Mode, Mount, RowProblem
+from auditor.model import Excitation, Mode, Mount, RowProblem, TensionCurves
 from auditor.report import branding, digest
 from auditor.report.charts import (
     MIN_FONT_SIZE,
@@ -578,6 +578,33 @@ def test_tuning_curves_follow_root_tension():
     log_f = np.log10(50.0 * np.sqrt(tension / 1000.0))
     slope, intercept = np.polyfit(log_f, ys, 1)
     assert np.allclose(ys, slope * log_f + intercept, atol=1e-6)
+
+
+def test_tuning_curves_follow_the_full_model_where_the_remedy_followed_it():
+    # A piston on an air spring (a panel over a shallow sealed cavity): f² = a·T + b, the
+    # cavity's b independent of tension (Dowell, Gorman & Smith, J. Sound Vib. 52, 1977).
+    # Given the remedy's curves solved at 500, 1000 and 2000 N/m, the chart draws f² linear in
+    # tension through them, which is this law itself; a mode without a curve is drawn by √T,
+    # dashed, and the legend says which is which.
+    a, b = 1.0, 3.0e4                                   # [Hz²·m/N], [Hz²]
+    law = lambda t: math.sqrt(a * t + b)                # noqa: E731
+    followed = Mode("(1,1)", law(1000.0), participation=0.66)
+    other = Mode("(1,3)", 120.0, participation=0.07)
+    curves = TensionCurves((500.0, 1000.0, 2000.0), ("(1,1)",),
+                           (tuple(law(t) for t in (500.0, 1000.0, 2000.0)),))
+    chart = tuning_chart([followed, other], [], scheduled=1000.0, low=500.0, high=2000.0,
+                         conflict_margin=None, curves=curves)
+    paths = [n for n in chart.contents if getattr(n, "points", None) and len(n.points) == 96]
+    (full,) = [p for p in paths if not p.strokeDashArray]
+    (dashed,) = [p for p in paths if p.strokeDashArray]
+    tension = np.linspace(500.0, 1000.0 * 2, 48)
+    for path, f in ((full, np.sqrt(a * tension + b)), (dashed, 120.0 * np.sqrt(tension / 1e3))):
+        ys = np.array(path.points[1::2])
+        slope, intercept = np.polyfit(np.log10(f), ys, 1)
+        assert np.allclose(ys, slope * np.log10(f) + intercept, atol=1e-6)
+    texts = {t for t, _, _ in string_boxes(chart)}
+    assert "mode frequency (full model)" in texts
+    assert "mode frequency, f ∝ √T (not followed)" in texts
 
 
 def test_linear_ticks_are_round_numbers():

@@ -70,6 +70,7 @@ class ModeTracks:
     overlap: np.ndarray         # (K,) bool
     limit_hz: float
     overlap_hz: float           # where modes overlap at scale 1 (∝ √s, as the modes) [Hz]
+    labels: tuple[str, ...] = ()  # (K,) each mode's label where it first appears
 
 
 def mode_tracks(states: Sequence[SolvedScale], low: float, high: float,
@@ -78,7 +79,7 @@ def mode_tracks(states: Sequence[SolvedScale], low: float, high: float,
     k-th); f² linear in s between solved scales, ∝ s beyond them."""
     grid = np.array(sorted({low, high, *(st.scale for st in states)}))
     column = {float(s): j for j, s in enumerate(grid)}
-    rows_of, count = _track_rows([st.labels for st in states])
+    rows_of, count, labels = _track_rows([st.labels for st in states])
     placed = [(column[float(st.scale)], rows) for st, rows in zip(states, rows_of)]
     width = len(grid)
     f2 = np.full((count, width), np.nan)
@@ -95,18 +96,19 @@ def mode_tracks(states: Sequence[SolvedScale], low: float, high: float,
     at_base = np.sqrt(f2[:, column[float(base.scale)]])
     return ModeTracks(grid, f2, np.fmax.reduce(part, axis=1), np.fmin.reduce(eta_r, axis=1),
                       np.fmax.reduce(eta_m, axis=1), at_base >= base.overlap_from_hz,
-                      limit_hz, base.overlap_from_hz / math.sqrt(base.scale))
+                      limit_hz, base.overlap_from_hz / math.sqrt(base.scale), labels)
 
 
-def _track_rows(labelled: Sequence[Sequence[str]]) -> tuple[list[np.ndarray], int]:
+def _track_rows(labelled: Sequence[Sequence[str]]
+                ) -> tuple[list[np.ndarray], int, tuple[str, ...]]:
     """The track (row) of each mode of each solve: the k-th mode of a label in one solve
     follows the k-th of that label in the others. Rows are numbered in order of first
-    appearance (solves in turn, modes in order); returns the rows of each solve and the
-    number of tracks."""
+    appearance (solves in turn, modes in order); returns the rows of each solve, the
+    number of tracks and the label of each track (where it first appears)."""
     sizes = [len(labels) for labels in labelled]
     total = sum(sizes)
     if total == 0:
-        return [np.zeros(0, dtype=int) for _ in labelled], 0
+        return [np.zeros(0, dtype=int) for _ in labelled], 0, ()
     ids: dict[str, int] = {}
     label = np.fromiter((ids.setdefault(name, len(ids)) for labels in labelled
                          for name in labels), dtype=int, count=total)
@@ -124,7 +126,11 @@ def _track_rows(labelled: Sequence[Sequence[str]]) -> tuple[list[np.ndarray], in
     rank = np.empty(len(unique), dtype=int)
     rank[np.argsort(first_seen, kind="stable")] = np.arange(len(unique))
     rows = rank[inverse.ravel()]
-    return list(np.split(rows, np.cumsum(sizes)[:-1])), len(unique)
+    names = [name for labels in labelled for name in labels]
+    firsts = np.empty(len(unique), dtype=int)
+    firsts[rank] = first_seen
+    return (list(np.split(rows, np.cumsum(sizes)[:-1])), len(unique),
+            tuple(names[k] for k in firsts.tolist()))
 
 
 def _filled(f2: np.ndarray, grid: np.ndarray) -> np.ndarray:

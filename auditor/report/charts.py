@@ -23,7 +23,7 @@ from reportlab.graphics.shapes import Circle, Drawing, Line, Path, Polygon, Rect
 from reportlab.lib.colors import Color, white
 from reportlab.pdfbase.pdfmetrics import stringWidth
 
-from auditor.model import Excitation, Mode, PanelResult
+from auditor.model import Excitation, Mode, PanelResult, TensionCurves
 from auditor.report.chart_parts import (
     LABEL_SIZE,
     MIN_FONT_SIZE,
@@ -334,13 +334,15 @@ def tuning_chart(modes: Sequence[Mode], excitations: Sequence[Excitation], *,
                  severities: dict[tuple[str, float], str] | None = None,
                  width: float = 480.0, plot_height: float = 150.0,
                  style: FigureStyle | None = None, tension_title: str = "tension [N/m]",
-                 ) -> Drawing:
+                 curves: TensionCurves | None = None) -> Drawing:
     """Each mode's frequency against tension over the rated range, with the tones.
 
     Parameters
     ----------
     modes : sequence of Mode
-        The modes at ``scheduled`` tension; each is drawn as ``f·√(T/scheduled)``.
+        The modes at ``scheduled`` tension; each is drawn along its curve in ``curves``
+        (the full model's, as the remedy search followed it), or as ``f·√(T/scheduled)``
+        where it has none (dashed, unless ``curves`` scale exactly as √T).
     excitations : sequence of Excitation
         Tones (horizontal lines) and bands (shaded) reaching the panel; those outside the
         frequency range of the curves are left out.
@@ -359,8 +361,14 @@ def tuning_chart(modes: Sequence[Mode], excitations: Sequence[Excitation], *,
         conflict window and a grey dotted line.
     severities : dict (label, rounded frequency) → "conflict" | "caution"
         The modes in findings at the scheduled tension (coloured).
+    curves : TensionCurves or None
+        The modes followed over the range on the full model (``Remedy.curves``).
     """
     severities = severities or {}
+    followed = {m.label for m in modes
+                if curves is not None and curves.frequency_at(m.label, scheduled) is not None}
+    # without curves, or with curves that scale exactly, √T is the model itself
+    exact = curves is None or curves.exact
     weak = {id(e) for e in excitations if _too_weak(e, modes, conflict_db)}
     style = style or FigureStyle()
     left, right = 40.0, 6.0
@@ -372,15 +380,19 @@ def tuning_chart(modes: Sequence[Mode], excitations: Sequence[Excitation], *,
     plot_x1 = width - right - label_w
     plot_w = plot_x1 - plot_x0
 
-    def freq(f0: float, t: float) -> float:
-        return f0 * math.sqrt(t / scheduled)
+    def freq(m: Mode, t: float) -> float:
+        if curves is not None and m.label in followed:
+            return curves.frequency_at(m.label, t) or 0.0
+        return m.frequency_hz * math.sqrt(t / scheduled)
 
-    ends = [freq(m.frequency_hz, t) for m in modes for t in (low, high)]
+    ends = [freq(m, t) for m in modes for t in (low, high)]
     f_low, f_high = frequency_axis_range(ends, pad=1.12)
     log_low, log_span = math.log10(f_low), math.log10(f_high / f_low)
 
     legend = _tuning_legend(modes, excitations, severities, marks, proposed, clear_windows,
-                            conflict_margin, f_low, f_high, style, weak)
+                            conflict_margin, f_low, f_high, style, weak,
+                            "exact" if exact else "full" if len(followed) == len(
+                                {m.label for m in modes}) else "mixed")
     legend_h = legend_height(legend, width - left - right, style)
     plot_y0 = legend_h + axis_h
     plot_y1 = plot_y0 + plot_height
@@ -451,9 +463,10 @@ def tuning_chart(modes: Sequence[Mode], excitations: Sequence[Excitation], *,
     for m in modes:
         sev = severities.get((m.label, round(m.frequency_hz, 9)))
         colour = severity_colour.get(sev, plain)
+        dashes = None if exact or m.label in followed else [3, 2]
         path = Path(strokeColor=colour, strokeWidth=1.2 if sev else 0.9, fillColor=None,
-                    strokeLineJoin=1)
-        points = [(tx(float(t)), fy(freq(m.frequency_hz, float(t)))) for t in t_grid]
+                    strokeLineJoin=1, strokeDashArray=dashes)
+        points = [(tx(float(t)), fy(freq(m, float(t)))) for t in t_grid]
         points = [(x, y) for x, y in points if plot_y0 <= y <= plot_y1]
         if len(points) < 2:
             continue
@@ -472,7 +485,7 @@ def tuning_chart(modes: Sequence[Mode], excitations: Sequence[Excitation], *,
         x = tx(proposed)
         d.add(Line(x, plot_y0, x, plot_y1, strokeColor=rgb(style.proposed), strokeWidth=1.5))
         for m in modes:
-            f = freq(m.frequency_hz, proposed)
+            f = freq(m, proposed)
             if f_low <= f <= f_high:
                 d.add(Circle(x, fy(f), 2.2, fillColor=rgb(style.proposed), strokeColor=white,
                              strokeWidth=0.4))
@@ -561,8 +574,15 @@ def _too_weak(e: Excitation, modes: Sequence[Mode], conflict_db: float | None) -
 
 
 def _tuning_legend(modes, excitations, severities, marks, proposed, clear_windows,
-                   conflict_margin, f_low, f_high, style, weak) -> list[LegendItem]:
-    items = [LegendItem("line", "mode frequency, f \u221d \u221aT", style.mode)]
+                   conflict_margin, f_low, f_high, style, weak,
+                   model: str = "exact") -> list[LegendItem]:
+    if model == "exact":
+        items = [LegendItem("line", "mode frequency, f \u221d \u221aT", style.mode)]
+    else:
+        items = [LegendItem("line", "mode frequency (full model)", style.mode)]
+        if model == "mixed":
+            items.append(LegendItem("dashed", "mode frequency, f \u221d \u221aT (not "
+                                    "followed)", style.mode))
     found = {severities.get((m.label, round(m.frequency_hz, 9))) for m in modes}
     if "conflict" in found:
         items.append(LegendItem("line", "mode in a conflict as scheduled", style.conflict))

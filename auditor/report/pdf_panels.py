@@ -265,26 +265,37 @@ def tuning_block(b: ReportBuilder, pr: PanelResult, excitations) -> list[Flowabl
             severities[k] = f.severity
     title = "tension [N/m]" if pr.panel.isotropic else \
         "tension x [N/m] (tension y kept in proportion)"
+    curves = remedy.curves if remedy is not None else None
     chart = tuning_chart(modes, excitations, scheduled=t0, low=low, high=high, marks=marks,
                          proposed=proposed, clear_windows=remedy.clear_windows if remedy else (),
                          conflict_margin=_rule(b, "conflict_margin"),
                          conflict_db=_rule(b, "conflict_db"), severities=severities,
                          width=b.frame_width, plot_height=150, style=b.figure_style,
-                         tension_title=title)
+                         tension_title=title, curves=curves)
     exact, why = digest.scales_as_root_tension(pr.panel)
     ceiling = "rated maximum" if rated else \
         f"no rating scheduled: {_rule(b, 'max_tension_factor', 1.5):g} \u00d7 scheduled"
-    how = ("exact for this construction (a membrane, with the air on its open faces moving "
-           "as an added mass that does not depend on tension; the small compressible "
-           "correction aside)" if exact else
-           f"approximate for this construction ({why}: part of its stiffness does not scale "
-           f"with tension, so the true curves are flatter)")
+    if curves is not None and not curves.exact:
+        solved = ", ".join(f"{t:.0f}" for t in curves.tension)
+        unfollowed = [m for m in modes if curves.frequency_at(m.label, t0) is None]
+        how = (f"on the full model: solved at {solved} N/m, with f\u00b2 linear in tension "
+               f"between those tensions, as the remedy search takes it"
+               + ("" if exact else f" ({why}: part of its stiffness does not scale with "
+                  f"tension, so the curves are flatter than \u221aT)")
+               + ("; a dashed mode was not followed and is drawn by "
+                  "f = f\u2080\u00b7\u221a(T/T\u2080)" if unfollowed else ""))
+    else:
+        how = (f"by f = f\u2080\u00b7\u221a(T/T\u2080) from the modes computed at {t0:.0f} N/m: "
+               + ("exact for this construction (a membrane, with the air on its open faces "
+                  "moving as an added mass that does not depend on tension; the small "
+                  "compressible correction aside)" if exact else
+                  f"approximate for this construction ({why}: part of its stiffness does not "
+                  f"scale with tension, so the true curves are flatter)"))
     caption = (f"The lowest modes that matter, followed over the range a remedy may propose "
-               f"({low:.0f}\u2013{high:.0f} N/m; {ceiling}) by f = f\u2080\u00b7\u221a(T/T\u2080) "
-               f"from the modes computed at {t0:.0f} N/m: {how}. A mode inside a shaded conflict "
-               f"window is a conflict where it also responds strongly enough (see Methods); "
-               f"the clear windows and the proposed tension are the full model's, verified by "
-               f"a solve at the proposed tension.")
+               f"({low:.0f}\u2013{high:.0f} N/m; {ceiling}) {how}. A mode inside a shaded "
+               f"conflict window is a conflict where it also responds strongly enough (see "
+               f"Methods); the clear windows and the proposed tension are the full model's, "
+               f"verified by a solve at the proposed tension.")
     return [KeepTogether([b.para("Tuning chart: modes against tension", "h3"), chart,
                           b.para(b.m(caption), "caption")])]
 
