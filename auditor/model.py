@@ -416,7 +416,8 @@ class TensionCurves:
     ----------
     tension : tuple of float  [N/m]
         Tension x at which the modes are given, ascending: the ends of the range, the
-        scheduled tension and any tension the search solved (tension y in proportion).
+        scheduled tension and any tension whose check failed before the search's choice
+        (tension y in proportion).
     labels : tuple of str
         The modes followed (each as at the scheduled tension).
     frequency_hz : tuple of tuple of float  [Hz]

@@ -40,8 +40,9 @@ The proposed tension is placed inside its window (at least ``INSET`` from the wi
 where it is wide enough, else in its middle), rounded to three significant figures (a
 tension an installer can set), and **verified**: the full model is solved again at that
 tension and judged exactly as the audit judges; a failure adds that solution to the grid
-and the search runs again (``VERIFY_ATTEMPTS`` times). The modes that matter, followed over
-every tension solved, go with the remedy (``Remedy.curves``) for the report's tuning chart.
+and the search runs again (``VERIFY_ATTEMPTS`` times). The modes that matter, as the search
+followed them when it found its windows, go with the remedy (``Remedy.curves``) for the
+report's tuning chart.
 
 Changing the tension of a stretched system changes the energy stored in it: every remedy that
 is work on the panel (``Remedy.work``) goes with ``SAFETY_NOTE``.
@@ -273,6 +274,7 @@ class _Search:
     chosen: float | None
     verified: PairGrades | None
     conflicts_by_tone: dict[int, list[tuple[float, float]]]
+    tracks: ModeTracks | None = None     # the modes followed, as the windows were found
 
 
 def _search(solver: _Solver, low: float, high: float, exact: bool) -> _Search:
@@ -289,6 +291,7 @@ def _search(solver: _Solver, low: float, high: float, exact: bool) -> _Search:
         states = solver.states
         limit = min([solver.limit_hz] + [st.complete_to_hz for st in states])
         tracks = solver.tracks(low, high, limit)
+        search.tracks = tracks
         (c_lo, c_hi), (f_lo, f_hi), tone = blocked_intervals(tracks, solver.excitations,
                                                               solver.ruleset)
         windows = complement(union(c_lo, c_hi), low, high)
@@ -415,7 +418,7 @@ def panel_remedy(panel: Panel, excitations: Sequence[Excitation] | ExcitationArr
     exact = scales_exactly(panel)
     search = _search(solver, low, high, exact)
     windows = tuple((a * tx, b * tx) for a, b in search.windows)
-    curves = _curves(solver, low, high, now, base, exact)
+    curves = _curves(solver, search, now, base, exact)
     if rated is not None:
         ceiling = f"rated maximum {_t(rated)} N/m"
     else:
@@ -440,25 +443,23 @@ def panel_remedy(panel: Panel, excitations: Sequence[Excitation] | ExcitationArr
                   fundamental_hz=_lowest_hz(state), curves=curves)
 
 
-def _curves(solver: _Solver, low: float, high: float, now: PairGrades, base: _State,
-            exact: bool) -> TensionCurves:
-    """The modes that matter followed over the range searched, as the search followed them
-    (for the tuning chart): those in findings at the scheduled tension, the fundamental, and
-    those driven at the rule set's participation threshold or more somewhere along the
-    range; their frequencies at the range's ends and at every tension solved."""
-    states = solver.states
-    limit = min([solver.limit_hz] + [st.complete_to_hz for st in states])
-    tracks = solver.tracks(low, high, limit)
-    scheduled = set(base.labels)
-    named = {base.labels[int(k)] for k in now.mode.tolist()}
-    if base.labels:
-        named.add(base.labels[0])
-    keep = [k for k, label in enumerate(tracks.labels) if label in scheduled and (
-        label in named or tracks.participation[k] >= solver.ruleset.participation_threshold)]
+def _curves(solver: _Solver, search: _Search, now: PairGrades, base: _State,
+            exact: bool) -> TensionCurves | None:
+    """The modes that matter followed over the range, as the search followed them when it
+    found its windows (for the tuning chart): those in findings at the scheduled tension,
+    the fundamental, and those driven at the rule set's participation threshold or more
+    somewhere along the range."""
+    tracks = search.tracks
+    if tracks is None or len(tracks.base_rows) != len(base.labels):
+        return None
+    rows = tracks.base_rows
+    driven = tracks.participation[rows] >= solver.ruleset.participation_threshold
+    wanted = np.flatnonzero(driven).tolist() + now.mode.tolist() + [0]
+    keep = sorted({int(k) for k in wanted if k < len(rows)})
     tension = solver.panel.tension_x
-    frequency = np.sqrt(tracks.f2[keep])
+    frequency = np.sqrt(tracks.f2[rows[keep]])
     return TensionCurves(tuple(float(s * tension) for s in tracks.scales),
-                         tuple(tracks.labels[k] for k in keep),
+                         tuple(base.labels[k] for k in keep),
                          tuple(tuple(row) for row in frequency.tolist()), exact)
 
 

@@ -31,7 +31,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Protocol
 
 import numpy as np
@@ -70,7 +70,8 @@ class ModeTracks:
     overlap: np.ndarray         # (K,) bool
     limit_hz: float
     overlap_hz: float           # where modes overlap at scale 1 (∝ √s, as the modes) [Hz]
-    labels: tuple[str, ...] = ()  # (K,) each mode's label where it first appears
+    base_rows: np.ndarray = field(  # the row of each mode of the solve at scale 1
+        default_factory=lambda: np.zeros(0, dtype=int))
 
 
 def mode_tracks(states: Sequence[SolvedScale], low: float, high: float,
@@ -79,7 +80,7 @@ def mode_tracks(states: Sequence[SolvedScale], low: float, high: float,
     k-th); f² linear in s between solved scales, ∝ s beyond them."""
     grid = np.array(sorted({low, high, *(st.scale for st in states)}))
     column = {float(s): j for j, s in enumerate(grid)}
-    rows_of, count, labels = _track_rows([st.labels for st in states])
+    rows_of, count = _track_rows([st.labels for st in states])
     placed = [(column[float(st.scale)], rows) for st, rows in zip(states, rows_of)]
     width = len(grid)
     f2 = np.full((count, width), np.nan)
@@ -92,23 +93,24 @@ def mode_tracks(states: Sequence[SolvedScale], low: float, high: float,
         eta_r[rows, j] = st.modes.response_loss_factor
         eta_m[rows, j] = st.modes.loss_factor
     f2 = _filled(f2, grid)
-    base = min(states, key=lambda st: abs(math.log(st.scale)))
+    k_base = min(range(len(states)), key=lambda j: abs(math.log(states[j].scale)))
+    base = states[k_base]
     at_base = np.sqrt(f2[:, column[float(base.scale)]])
     return ModeTracks(grid, f2, np.fmax.reduce(part, axis=1), np.fmin.reduce(eta_r, axis=1),
                       np.fmax.reduce(eta_m, axis=1), at_base >= base.overlap_from_hz,
-                      limit_hz, base.overlap_from_hz / math.sqrt(base.scale), labels)
+                      limit_hz, base.overlap_from_hz / math.sqrt(base.scale),
+                      rows_of[k_base])
 
 
-def _track_rows(labelled: Sequence[Sequence[str]]
-                ) -> tuple[list[np.ndarray], int, tuple[str, ...]]:
+def _track_rows(labelled: Sequence[Sequence[str]]) -> tuple[list[np.ndarray], int]:
     """The track (row) of each mode of each solve: the k-th mode of a label in one solve
     follows the k-th of that label in the others. Rows are numbered in order of first
-    appearance (solves in turn, modes in order); returns the rows of each solve, the
-    number of tracks and the label of each track (where it first appears)."""
+    appearance (solves in turn, modes in order); returns the rows of each solve and the
+    number of tracks."""
     sizes = [len(labels) for labels in labelled]
     total = sum(sizes)
     if total == 0:
-        return [np.zeros(0, dtype=int) for _ in labelled], 0, ()
+        return [np.zeros(0, dtype=int) for _ in labelled], 0
     ids: dict[str, int] = {}
     label = np.fromiter((ids.setdefault(name, len(ids)) for labels in labelled
                          for name in labels), dtype=int, count=total)
@@ -126,11 +128,7 @@ def _track_rows(labelled: Sequence[Sequence[str]]
     rank = np.empty(len(unique), dtype=int)
     rank[np.argsort(first_seen, kind="stable")] = np.arange(len(unique))
     rows = rank[inverse.ravel()]
-    names = [name for labels in labelled for name in labels]
-    firsts = np.empty(len(unique), dtype=int)
-    firsts[rank] = first_seen
-    return (list(np.split(rows, np.cumsum(sizes)[:-1])), len(unique),
-            tuple(names[k] for k in firsts.tolist()))
+    return list(np.split(rows, np.cumsum(sizes)[:-1])), len(unique)
 
 
 def _filled(f2: np.ndarray, grid: np.ndarray) -> np.ndarray:
