@@ -425,8 +425,8 @@ class TensionCurves:
         mode was not found at a tension, filled as the search fills it (f² linear in
         tension between the tensions it was solved at, ∝ tension beyond).
     exact : bool
-        True when the frequencies scale exactly as √T (no part of the stiffness independent
-        of tension): then they were solved at the scheduled tension and scaled.
+        True when the frequencies scale exactly as √T (a membrane with no air on either
+        face and no bending stiffness): then they are the scheduled solve's, scaled.
     """
 
     tension: tuple[float, ...]

@@ -235,7 +235,7 @@ def mode_names(labels: Sequence[str], indices) -> Sequence[str]:
 
 
 def _repeat_mark(k: int) -> str:
-    """The mark of the (k+1)-th mode of one name: b, c, …, z, then 27, 28, …"""
+    """The mark of the (k+1)-th mode of one name: b, c, …, z, then #27, #28, …"""
     return chr(ord("a") + k) if k < 26 else f"#{k + 1}"
 
 
