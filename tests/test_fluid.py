@@ -290,6 +290,18 @@ def test_a_cavity_split_is_named_twice_and_told_apart():
     assert special.jn_zeros(0, 5)[-1] == pytest.approx(14.9309177, rel=1e-8)
 
 
+def test_names_of_modes_sharing_a_basis_mode_are_marked_in_frequency_order():
+    # The convention of auditor.physics.basis.mode_names (ours, stated in Methods): the first
+    # mode of a name keeps it, later ones are marked b, c, … in ascending frequency, wherever
+    # they fall among the other modes.
+    from auditor.physics.basis import mode_names
+
+    labels = ("(1,1)", "(2,1)", "(1,2)")
+    assert mode_names(labels, [0, 1, 0, 2, 0, 1]) == (
+        "(1,1)", "(2,1)", "(1,1)b", "(1,2)", "(1,1)c", "(2,1)b")
+    assert tuple(mode_names(labels, [2, 0, 1])) == ("(1,2)", "(1,1)", "(2,1)")
+
+
 def test_porous_limits():
     # Series flow resistance, Z_eff = Z r/(Z + r) (U. Ingard, Notes on Acoustics, 2008): r → ∞
     # is the impervious sheet, r → 0 leaves the panel in vacuo with its structural damping.
