@@ -271,7 +271,8 @@ def test_a_cavity_split_is_named_twice_and_told_apart():
     # 300 mm plenum gives two such modes of (0,5). Both keep the name, in ascending frequency
     # the plain one first and the second marked "b", so that the two can be told apart in a
     # finding, a shape drawing or a tap-test fit. Their in-vacuo frequency is that of (0,5):
-    # f = j₀,₅ √(T/ρs)/(2πa), j₀,₅ = 14.9309177 (Abramowitz & Stegun, Table 9.5).
+    # f = j₀,₅ √(T/ρs)/(2πa), j₀,₅ = 14.9309177 (Abramowitz & Stegun, Table 9.5; the value
+    # from memory, checked below against scipy.special.jn_zeros).
     tension, density, radius = 900.0, 0.23, 1.2
 
     def basis_for(f_limit, max_modes=240):

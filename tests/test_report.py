@@ -597,7 +597,7 @@ def test_tuning_curves_follow_the_full_model_where_the_remedy_followed_it():
     paths = [n for n in chart.contents if getattr(n, "points", None) and len(n.points) == 96]
     (full,) = [p for p in paths if not p.strokeDashArray]
     (dashed,) = [p for p in paths if p.strokeDashArray]
-    tension = np.linspace(500.0, 1000.0 * 2, 48)
+    tension = np.linspace(500.0, 2000.0, 48)
     for path, f in ((full, np.sqrt(a * tension + b)), (dashed, 120.0 * np.sqrt(tension / 1e3))):
         ys = np.array(path.points[1::2])
         slope, intercept = np.polyfit(np.log10(f), ys, 1)
