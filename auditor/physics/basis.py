@@ -222,7 +222,11 @@ def mode_names(labels: Sequence[str], indices) -> Sequence[str]:
     :func:`names_at` unchanged (made when read)."""
     indices = np.asarray(indices, dtype=int)
     named = names_at(labels, indices)
-    if len(np.unique(indices)) == len(indices):
+    if len(indices) == 0:
+        return named
+    seen = np.zeros(int(indices.max()) + 1, dtype=bool)
+    seen[indices] = True
+    if np.count_nonzero(seen) == len(indices):     # no index twice (the usual case)
         return named
     order = np.argsort(indices, kind="stable")
     ordered = indices[order]
