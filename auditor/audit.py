@@ -38,7 +38,6 @@ import datetime as _dt
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
-from typing import TypedDict
 
 from auditor import __version__
 from auditor.excitation import excitations_for_schedule, mount_of
@@ -55,7 +54,6 @@ from auditor.judging import (
     start_worker_server,
 )
 from auditor.model import (
-    NO_SOURCE,
     AuditResult,
     Equipment,
     Excitation,
@@ -65,7 +63,7 @@ from auditor.model import (
     Schedule,
 )
 from auditor.physics.cache import SolveCache
-from auditor.physics.modes import GeometryError, modes_for, physics_signature
+from auditor.physics.modes import GeometryError, modes_for, physics_key, physics_signature
 from auditor.rules import RuleSet, load_ruleset
 from auditor.schedule import read_schedule
 
@@ -145,19 +143,6 @@ class PanelType:
         return weight * (1.0 + min(float(modes), 1e6) / 50000.0)
 
 
-class _NotPhysics(TypedDict):
-    """The panel fields blanked in a type's representative, besides its source."""
-
-    panel: str
-    zone: str
-    entered: tuple[tuple[str, str], ...]
-    tap_test: str | None
-
-
-#: The panel fields blanked in a type's representative (see :class:`PanelType`).
-_NOT_PHYSICS: _NotPhysics = {"panel": "", "zone": "", "entered": (), "tap_test": None}
-
-
 def _zone(panel: Panel, ruleset: RuleSet) -> str:
     return panel.zone.strip().casefold() if ruleset.use_zones else ""
 
@@ -197,7 +182,10 @@ def panel_types(panels: Sequence[Panel], groups: Sequence[ToneGroup],
         if key not in found:
             index[key] = len(order)
             order.append(key)
-            found[key] = (dataclasses.replace(panel, source=NO_SOURCE, **_NOT_PHYSICS), set(), 0)
+            # the representative: its physics and its remedy range, nothing of the panel
+            representative = dataclasses.replace(physics_key(panel),
+                                                 max_tension=panel.max_tension)
+            found[key] = (representative, set(), 0)
         representative, used, count = found[key]
         used.add(group)
         found[key] = (representative, used, count + 1)

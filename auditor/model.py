@@ -16,6 +16,8 @@ from collections.abc import Sequence
 from dataclasses import dataclass, field
 from typing import Any, Literal
 
+import numpy as np
+
 Severity = Literal["error", "warning"]
 ShapeKind = Literal["rectangle", "circle", "polygon"]
 Material = Literal["film", "fabric", "mesh", "plate"]
@@ -434,22 +436,21 @@ class TensionCurves:
     frequency_hz: tuple[tuple[float, ...], ...]
     exact: bool = False
 
+    def follows(self, label: str) -> bool:
+        """Whether mode ``label`` is followed."""
+        return label in self.labels
+
     def frequency_at(self, label: str, tension: float) -> float | None:
         """Mode ``label`` at ``tension`` [N/m]: f² linear in tension between the given
         tensions, ∝ tension beyond them (as the remedy search interpolates); None for a
         mode not followed."""
-        try:
-            row = self.frequency_hz[self.labels.index(label)]
-        except ValueError:
+        if not self.follows(label):
             return None
-        t = self.tension
-        if len(t) == 1 or tension <= t[0]:
-            return row[0] * math.sqrt(max(tension, 0.0) / t[0])
-        if tension >= t[-1]:
-            return row[-1] * math.sqrt(tension / t[-1])
-        j = max(k for k in range(len(t) - 1) if t[k] <= tension)
-        w = (tension - t[j]) / (t[j + 1] - t[j])
-        return math.sqrt((1.0 - w) * row[j] ** 2 + w * row[j + 1] ** 2)
+        row, t = self.frequency_hz[self.labels.index(label)], self.tension
+        if tension < t[0] or tension > t[-1]:
+            end = 0 if tension < t[0] else -1
+            return row[end] * math.sqrt(max(tension, 0.0) / t[end])
+        return math.sqrt(float(np.interp(tension, t, np.square(row))))
 
 
 @dataclass(frozen=True)

@@ -365,8 +365,7 @@ def tuning_chart(modes: Sequence[Mode], excitations: Sequence[Excitation], *,
         The modes followed over the range on the full model (``Remedy.curves``).
     """
     severities = severities or {}
-    followed = {m.label for m in modes
-                if curves is not None and curves.frequency_at(m.label, scheduled) is not None}
+    followed = {m.label for m in modes if curves is not None and curves.follows(m.label)}
     # without curves, or with curves that scale exactly, √T is the model itself
     exact = curves is None or curves.exact
     weak = {id(e) for e in excitations if _too_weak(e, modes, conflict_db)}

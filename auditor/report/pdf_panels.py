@@ -277,7 +277,7 @@ def tuning_block(b: ReportBuilder, pr: PanelResult, excitations) -> list[Flowabl
         f"no rating scheduled: {_rule(b, 'max_tension_factor', 1.5):g} \u00d7 scheduled"
     if curves is not None and not curves.exact:
         solved = ", ".join(f"{t:.0f}" for t in curves.tension)
-        unfollowed = [m for m in modes if curves.frequency_at(m.label, t0) is None]
+        unfollowed = [m for m in modes if not curves.follows(m.label)]
         how = (f"on the full model: solved at {solved} N/m, with f\u00b2 linear in tension "
                f"between those tensions, as the remedy search takes it"
                + ("" if exact else f" ({why}: part of its stiffness does not scale with "
