@@ -53,17 +53,10 @@ from auditor.judging import (
     resolved_jobs,
     start_worker_server,
 )
-from auditor.model import (
-    AuditResult,
-    Equipment,
-    Excitation,
-    Panel,
-    PanelResult,
-    RowProblem,
-    Schedule,
-)
+from auditor.model import Equipment, Panel, RowProblem, Schedule
 from auditor.physics.cache import SolveCache
 from auditor.physics.modes import GeometryError, modes_for, physics_key, physics_signature
+from auditor.results import AuditResult, Excitation, PanelResult
 from auditor.rules import RuleSet, load_ruleset
 from auditor.schedule import read_schedule
 

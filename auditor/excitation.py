@@ -63,7 +63,8 @@ from auditor.judgement.response import (
     mount_natural_frequency_hz,
     transmissibility,
 )
-from auditor.model import Equipment, Excitation, Mount, RowProblem
+from auditor.model import Equipment, RowProblem
+from auditor.results import Excitation, Mount
 from auditor.rules import RuleSet
 
 __all__ = [

@@ -28,10 +28,11 @@ import numpy as np
 
 from auditor.judgement.screening import ExcitationArrays
 from auditor.judgement.verdict import PanelAssessment, assess_panel
-from auditor.model import Finding, Mode, Panel, Remedy, ShapeGrid, finding_rank
+from auditor.model import Panel
 from auditor.physics.cache import SolveCache
 from auditor.physics.modes import PanelModes, modes_for, physics_signature
 from auditor.remedy import RemedyMemo, panel_remedy
+from auditor.results import Finding, Mode, Remedy, ShapeGrid, finding_rank
 from auditor.rules import RuleSet
 from auditor.worker_server import resolved_jobs, start_worker_server, worker_context
 

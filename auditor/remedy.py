@@ -82,7 +82,8 @@ from auditor.judgement.tuning import (
     union,
 )
 from auditor.judgement.verdict import overlap_frequency_hz
-from auditor.model import Excitation, Panel, Remedy, TensionCurves
+from auditor.model import Panel
+from auditor.results import Excitation, Remedy, TensionCurves
 from auditor.rules import RuleSet
 
 __all__ = ["panel_remedy", "remedy_advice", "bay_panel", "scales_exactly", "RemedyMemo",
@@ -450,7 +451,7 @@ def _curves(solver: _Solver, search: _Search, now: PairGrades, base: _State,
     the fundamental, and those driven at the rule set's participation threshold or more
     somewhere along the range."""
     tracks = search.tracks
-    if tracks is None or len(tracks.base_rows) != len(base.labels):
+    if tracks is None:
         return None
     rows = tracks.base_rows
     driven = tracks.participation[rows] >= solver.ruleset.participation_threshold

@@ -6,7 +6,8 @@ import math
 
 import numpy as np
 
-from auditor.model import Mode, Panel
+from auditor.model import Panel
+from auditor.results import Mode
 
 
 def ideal_membrane_modes(panel: Panel, count: int = 8, loss_factor: float | None = None):

@@ -15,22 +15,24 @@ import numpy as np
 from scipy.special import jn, jn_zeros
 
 from auditor.model import (
-    AuditResult,
     CircleCutout,
     Equipment,
-    Excitation,
-    Finding,
     InputFile,
-    Mode,
-    Mount,
     Panel,
-    PanelResult,
     Project,
-    Remedy,
     RowProblem,
     Schedule,
-    ShapeGrid,
     SourceRef,
+)
+from auditor.results import (
+    AuditResult,
+    Excitation,
+    Finding,
+    Mode,
+    Mount,
+    PanelResult,
+    Remedy,
+    ShapeGrid,
     finding_rank,
 )
 from auditor.rules import RuleSet

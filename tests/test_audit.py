@@ -343,7 +343,8 @@ def test_findings_and_panels_are_ranked_worst_first(tmp_path):
 
 
 def test_a_row_with_two_errors_is_one_rejected_row():
-    from auditor.model import AuditResult, RowProblem, Schedule
+    from auditor.model import RowProblem, Schedule
+    from auditor.results import AuditResult
 
     problems = (RowProblem("s.xlsx", "Panels", 5, "Width", "width must be positive"),
                 RowProblem("s.xlsx", "Panels", 5, "Material", "material not known"),

@@ -32,7 +32,8 @@ from auditor.calibrate import (
     tap_spectrum,
     write_wav,
 )
-from auditor.model import Mode, Panel, Project, Schedule, SourceRef
+from auditor.model import Panel, Project, Schedule, SourceRef
+from auditor.results import Mode
 
 RATE = 4000
 TRUE_SCALE = 0.85

@@ -24,7 +24,6 @@ import openpyxl
 import pytest
 
 from auditor.audit import audit
-from auditor.model import VERDICTS, Mode
 from auditor.remedy import SAFETY_NOTE, remedy_advice
 from auditor.report.exports import (
     CSV_COLUMNS,
@@ -42,6 +41,7 @@ from auditor.report.workbook import (
     VERDICT_COLOURS,
     VERDICT_SHEET_COLUMNS,
 )
+from auditor.results import VERDICTS, Mode
 
 WIDTH, LENGTH, TENSION, DENSITY, BLADES = 1.2, 0.9, 800.0, 0.25, 6
 MAIN = "{http://schemas.openxmlformats.org/spreadsheetml/2006/main}"

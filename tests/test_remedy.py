@@ -11,8 +11,9 @@ from reference_models import ideal_membrane_modes_to
 from scipy.special import jn_zeros
 
 from auditor.judgement.screening import evaluate_panel
-from auditor.model import Excitation, Mode, Panel, SourceRef
+from auditor.model import Panel, SourceRef
 from auditor.remedy import SAFETY_NOTE, bay_panel, panel_remedy, remedy_advice, scales_exactly
+from auditor.results import Excitation, Mode
 from auditor.rules import load_ruleset
 
 STANDARD = dataclasses.replace(load_ruleset("standard"), support_participation_threshold=0.0)

@@ -34,7 +34,7 @@ from reportlab.graphics.shapes import Path
 from scipy.special import jn_zeros
 
 from auditor.atomic import write_atomic
-from auditor.model import Excitation, Mode, Mount, RowProblem, TensionCurves
+from auditor.model import RowProblem
 from auditor.report import branding, digest
 from auditor.report.charts import (
     MIN_FONT_SIZE,
@@ -72,6 +72,7 @@ from auditor.report.text import (
     parse_text_blocks,
     to_latin1,
 )
+from auditor.results import Excitation, Mode, Mount, TensionCurves
 
 
 def _squash(text: str) -> str:

@@ -28,7 +28,8 @@ from auditor.judgement.screening import (
     separation,
 )
 from auditor.judgement.verdict import assess_panel, panel_area
-from auditor.model import Equipment, Excitation, Mode, Panel, SourceRef
+from auditor.model import Equipment, Panel, SourceRef
+from auditor.results import Excitation, Mode
 from auditor.rules import RuleSetError, list_rulesets, load_ruleset, parse_ruleset, rules_dir
 
 SRC = SourceRef(file="p.xlsx", sheet="Panels", row=3)

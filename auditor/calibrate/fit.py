@@ -46,7 +46,8 @@ from auditor.calibrate.measurement import hum_lines, measure_peaks
 from auditor.calibrate.peaks import Peak
 from auditor.calibrate.reader import read_recording
 from auditor.calibrate.recording import Recording
-from auditor.model import Mode, Panel
+from auditor.model import Panel
+from auditor.results import Mode
 
 __all__ = ["ModesOf", "calibrate_panel"]
 

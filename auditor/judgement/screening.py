@@ -43,8 +43,9 @@ from typing import TYPE_CHECKING, Any, Protocol
 import numpy as np
 
 from auditor.judgement.response import modal_amplification, response_db, transmissibility
-from auditor.model import Equipment, Excitation, Finding, Mode, Panel
+from auditor.model import Equipment, Panel
 from auditor.physics.materials import structural_loss_factor
+from auditor.results import Excitation, Finding, Mode
 from auditor.rules import SEPARATION_TOLERANCE, RuleSet
 
 if TYPE_CHECKING:

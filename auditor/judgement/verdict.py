@@ -46,8 +46,9 @@ from auditor.judgement.screening import (
     findings_of,
     judge_pairs,
 )
-from auditor.model import CircleCutout, Excitation, Finding, Mode, Panel
+from auditor.model import CircleCutout, Panel
 from auditor.physics.geometry import signed_area
+from auditor.results import Excitation, Finding, Mode
 from auditor.rules import RuleSet
 
 __all__ = ["PanelAssessment", "panel_area", "overlap_frequency_hz", "assess_panel",

@@ -272,7 +272,7 @@ class ModalBasis:
     region : Region
     frequencies_hz : ndarray (n,)  [Hz]
     labels : sequence of str (n,)
-        "(m,n)" for rectangle and circle (see ``auditor.model.Mode``; an
+        "(m,n)" for rectangle and circle (see ``auditor.results.Mode``; an
         :class:`IndexedNames`, made when read), "#k" otherwise.
     multiplicity : ndarray of int (n,)
     mean : ndarray (n,)  [-]

@@ -21,13 +21,14 @@ from typing import Callable, TypedDict
 
 import numpy as np
 
-from auditor.model import NO_SOURCE, CircleCutout, Mode, Panel, ShapeGrid, SourceRef
+from auditor.model import NO_SOURCE, CircleCutout, Panel, SourceRef
 from auditor.physics import fem, fluid, membrane, uncoupled
 from auditor.physics.basis import ModalBasis, complete_below, mode_names, names_at
 from auditor.physics.basis_reach import REACH_MASS_MARGIN
 from auditor.physics.cache import SolveCache
 from auditor.physics.geometry import outline_problems, signed_area
 from auditor.physics.materials import structural_loss_factor
+from auditor.results import Mode, ShapeGrid
 
 #: Largest analytic basis built for the coupled air-loading step: it uses at most about 200
 #: basis modes, and building thousands of labelled modes only to drop them is the slow part.
@@ -51,7 +52,7 @@ MAX_REACH_FACTOR = 8.0
 
 
 class ModeList(Sequence):
-    """A panel's modes held as arrays, each :class:`~auditor.model.Mode` record made when
+    """A panel's modes held as arrays, each :class:`~auditor.results.Mode` record made when
     read: a large panel has tens of thousands of modes, of which a report reads a few.
 
     Behaves as a sequence of ``Mode`` (ascending in frequency, as its arrays); a slice is

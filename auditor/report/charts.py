@@ -23,7 +23,6 @@ from reportlab.graphics.shapes import Circle, Drawing, Line, Path, Polygon, Rect
 from reportlab.lib.colors import Color, white
 from reportlab.pdfbase.pdfmetrics import stringWidth
 
-from auditor.model import Excitation, Mode, PanelResult, TensionCurves
 from auditor.report.chart_parts import (
     LABEL_SIZE,
     MIN_FONT_SIZE,
@@ -48,6 +47,7 @@ from auditor.report.figures import (
 )
 from auditor.report.records import mode_columns, modes_between, modes_named
 from auditor.report.text import format_hz
+from auditor.results import Excitation, Mode, PanelResult, TensionCurves
 
 __all__ = [
     "MIN_FONT_SIZE",

@@ -2,7 +2,7 @@
 
 Rows, in this order:
 
-1. one row per finding, worst first (``auditor.model.finding_rank``), with its panel's
+1. one row per finding, worst first (``auditor.results.finding_rank``), with its panel's
    verdict, assessed range, remedy (the panel's one remedy, its text with the safety note
    when it is work on the panel) and assumptions beside it;
 2. one row per panel with no finding (``severity`` "no finding"), worst verdict first, so
@@ -30,11 +30,12 @@ from pathlib import Path
 from typing import Any
 
 from auditor.atomic import write_atomic
-from auditor.model import AuditResult, Finding, PanelResult, RowProblem
+from auditor.model import RowProblem
 from auditor.remedy import remedy_advice
 from auditor.report.provenance import local_paths, prepared_path
 from auditor.report.records import PanelAssumptions, finite, ranked_findings, windows_text
 from auditor.report.text import LocalPaths, clean_text
+from auditor.results import AuditResult, Finding, PanelResult
 
 __all__ = ["CSV_COLUMNS", "PANEL_COLUMNS", "NO_FINDING", "neutralise", "finding_rows",
            "no_finding_rows", "problem_rows", "findings_csv", "write_csv"]

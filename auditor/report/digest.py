@@ -28,19 +28,10 @@ from typing import Any
 
 import numpy as np
 
-from auditor.model import (
-    AuditResult,
-    Equipment,
-    Excitation,
-    Finding,
-    Mode,
-    Mount,
-    Panel,
-    PanelResult,
-    Project,
-)
+from auditor.model import Equipment, Panel, Project
 from auditor.report.records import fundamental, mode_columns, mode_frequency, modes_between
 from auditor.report.text import format_hz
+from auditor.results import AuditResult, Excitation, Finding, Mode, Mount, PanelResult
 
 __all__ = [
     "ACTION_VERDICTS",

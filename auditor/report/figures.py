@@ -31,10 +31,11 @@ from reportlab.graphics.shapes import (
 from reportlab.lib.colors import Color, HexColor
 from reportlab.pdfbase.pdfmetrics import stringWidth
 
-from auditor.model import CircleCutout, Mode, Panel, ShapeGrid
+from auditor.model import CircleCutout, Panel
 from auditor.report.nodal_lines import level_lines, simplify_polyline
 from auditor.report.shape_regions import layered_cell_runs
 from auditor.report.text import clean_text, format_hz, to_latin1
+from auditor.results import Mode, ShapeGrid
 
 __all__ = [
     "FigureStyle",

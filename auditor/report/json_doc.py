@@ -35,7 +35,6 @@ from typing import Any
 import orjson
 
 from auditor.atomic import write_atomic
-from auditor.model import AuditResult, Excitation, Finding, PanelResult, Remedy
 from auditor.remedy import SAFETY_NOTE
 from auditor.report.provenance import (
     local_paths,
@@ -50,6 +49,7 @@ from auditor.report.records import (
     listed_modes,
 )
 from auditor.report.text import LocalPaths
+from auditor.results import AuditResult, Excitation, Finding, PanelResult, Remedy
 
 __all__ = ["INDENT_PANELS", "finding_dict", "remedy_dict", "panel_dict", "panel_modes_dict",
            "findings_document", "findings_json", "write_json"]

@@ -51,7 +51,6 @@ from reportlab.platypus import (
 )
 
 from auditor.atomic import write_atomic
-from auditor.model import AuditResult
 from auditor.report import digest, pdf_front, pdf_panels, pdf_sections
 from auditor.report.branding import (
     ReportColours,
@@ -66,6 +65,7 @@ from auditor.report.pdf_panels import in_column_unit
 from auditor.report.provenance import local_paths
 from auditor.report.records import PanelAssumptions
 from auditor.report.text import clean_text, markup, to_latin1
+from auditor.results import AuditResult
 
 __all__ = [
     "ReportError",

@@ -13,12 +13,13 @@ from typing import TYPE_CHECKING, Any
 
 from reportlab.platypus import Flowable, KeepTogether, Spacer, Table, TableStyle
 
-from auditor.model import Panel, PanelResult
+from auditor.model import Panel
 from auditor.remedy import SAFETY_NOTE
 from auditor.report import digest
 from auditor.report.charts import TensionMark, interference_chart, tuning_chart
 from auditor.report.figures import mode_shape_drawing, shape_legend
 from auditor.report.text import format_hz
+from auditor.results import PanelResult
 
 if TYPE_CHECKING:
     from auditor.report.pdf import ReportBuilder

@@ -12,8 +12,9 @@ import os
 from pathlib import Path
 from typing import Any
 
-from auditor.model import AuditResult, RowProblem
+from auditor.model import RowProblem
 from auditor.report.text import LocalPaths, file_name, is_absolute_path
+from auditor.results import AuditResult
 
 __all__ = ["local_paths", "input_file_location", "ruleset_origin", "problem_dict",
            "prepared_path"]

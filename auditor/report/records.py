@@ -4,7 +4,7 @@ The JSON document, the CSV table and the audited workbook give the same facts in
 order; this module decides them once:
 
 - panels worst first (``AuditResult.ranked_panels``: verdict, then worst response), findings
-  worst first (``auditor.model.finding_rank``);
+  worst first (``auditor.results.finding_rank``);
 - which modes are listed: a panel may have tens of thousands of modes up to its assessment
   limit (no count cap), so the outputs give its mode count, its ``LOWEST_MODES_LISTED``
   lowest modes and every mode a finding names (``MODES_LISTED`` says so in the document);
@@ -24,9 +24,9 @@ from typing import Any
 
 import numpy as np
 
-from auditor.model import AuditResult, Finding, Mode, PanelResult, Remedy, finding_rank
 from auditor.physics.materials import structural_loss_factor
 from auditor.physics.modes import ModeList
+from auditor.results import AuditResult, Finding, Mode, PanelResult, Remedy, finding_rank
 
 __all__ = ["LOWEST_MODES_LISTED", "MODES_LISTED", "finite", "fundamental", "listed_modes",
            "mode_columns", "mode_frequency", "modes_between", "modes_named",

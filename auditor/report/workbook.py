@@ -34,7 +34,6 @@ from pathlib import Path
 from typing import Any
 
 from auditor.atomic import write_atomic
-from auditor.model import VERDICTS, AuditResult, PanelResult
 from auditor.report.csv_table import (
     CSV_COLUMNS,
     finding_rows,
@@ -45,6 +44,7 @@ from auditor.report.csv_table import (
 from auditor.report.provenance import input_file_location, local_paths
 from auditor.report.records import PanelAssumptions, finite
 from auditor.report.text import LocalPaths, clean_text
+from auditor.results import VERDICTS, AuditResult, PanelResult
 
 __all__ = ["VERDICT_COLOURS", "REJECTED_COLOUR", "STATUS_HEADERS", "VERDICT_SHEET_COLUMNS",
            "audited_workbook", "audited_workbook_bytes", "write_audited_workbooks"]

@@ -21,8 +21,9 @@ from auditor.judgement.screening import (
     evaluate_panel,
     reaching,
 )
-from auditor.model import Equipment, Mode, Panel, SourceRef
+from auditor.model import Equipment, Panel, SourceRef
 from auditor.remedy import panel_remedy
+from auditor.results import Mode
 from auditor.rules import load_ruleset
 
 PANELS = 20_000
